@@ -1,0 +1,9 @@
+using System.CommandLine;
+using SiloWatch.Cli;
+
+var root = new RootCommand("silowatch: tools for the SiloWatch silo monitoring service")
+{
+    VerifyCommand.Create(),
+};
+
+return await root.Parse(args).InvokeAsync();
