@@ -179,6 +179,18 @@ public sealed class SiloGeometry
     public double EquivalentSurfaceAboveTransitionM(double levelM) =>
         levelM >= HopperHeightM ? levelM - HopperHeightM + HeapEquivalentHeightM : levelM - HopperHeightM;
 
+    /// <summary>Equivalent-surface height of the heap when the highest wall contact is at a level, m.</summary>
+    public double HeapEquivalentHeightAt(double levelM)
+    {
+        if (levelM >= HopperHeightM)
+        {
+            return HeapEquivalentHeightM;
+        }
+
+        var (w, l) = HopperDimensions(Math.Max(0, levelM));
+        return HeapEquivalentHeight(w, l);
+    }
+
     /// <summary>Cross-section area at a height above the datum, m².</summary>
     public double AreaAtLevel(double levelM)
     {

@@ -126,6 +126,9 @@ public sealed class HopperOptions
 
     /// <summary>Hopper wall category; defaults to the silo wall's.</summary>
     public WallCategory? WallCategory { get; set; }
+
+    /// <summary>Horizontal offset of the outlet centre from the silo axis, m (e_o of EN 1991-4). Default 0 (central outlet).</summary>
+    public double OutletEccentricityM { get; set; }
 }
 
 public sealed class WeighingOptions
