@@ -9,11 +9,17 @@ namespace SiloWatch.Plant;
 /// </summary>
 public static partial class PlantValidator
 {
-    [GeneratedRegex("^[a-z0-9][a-z0-9-]{0,47}$")]
+    [GeneratedRegex(@"^[a-z0-9][a-z0-9-]{0,47}\z")]
     private static partial Regex SiteIdPattern();
 
-    [GeneratedRegex("^[A-Za-z0-9][A-Za-z0-9_-]{0,47}$")]
+    [GeneratedRegex(@"^[A-Za-z0-9][A-Za-z0-9_-]{0,47}\z")]
     private static partial Regex LocalIdPattern();
+
+    /// <summary>True when <paramref name="id"/> follows the site id rule (used for MQTT topic levels too).</summary>
+    public static bool IsValidSiteId(ReadOnlySpan<char> id) => SiteIdPattern().IsMatch(id);
+
+    /// <summary>True when <paramref name="id"/> follows the silo/sensor id rule (used for MQTT topic levels too).</summary>
+    public static bool IsValidLocalId(ReadOnlySpan<char> id) => LocalIdPattern().IsMatch(id);
 
     /// <summary>Units a sensor may declare, per kind.</summary>
     public static IReadOnlyList<string> AllowedUnits(SensorKind kind) => kind switch
