@@ -26,8 +26,12 @@ public static class HopperLoads
     /// <summary>Mobilised friction of a shallow hopper μ_heff = (1 − K)/(2·tanβ) [M?]: friction not fully mobilised.</summary>
     public static double MobilisedFriction(double k, double tanBeta) => (1.0 - k) / (2.0 * tanBeta);
 
-    /// <summary>n = S·(F·μ_h·cotβ + F) − 2 [D: slice equilibrium of the hopper, DOMAIN.md §1].</summary>
-    public static double PowerN(double s, double f, double mu, double tanBeta) => (s * ((f * mu / tanBeta) + f)) - 2.0;
+    /// <summary>
+    /// n = S·(F·μ_h·cotβ + F − 1) [D: slice equilibrium of the hopper]. For cones and pyramids (S = 2) this is
+    /// DOMAIN.md's S·(F·μ_h·cotβ + F) − 2; for a wedge (S = 1) statics gives −1, not −2 (tested against an
+    /// integration of the slice equilibrium): check the wedge against your copy of EN 1991-4 §6.3.
+    /// </summary>
+    public static double PowerN(double s, double f, double mu, double tanBeta) => s * ((f * mu / tanBeta) + f - 1.0);
 
     /// <summary>p_v(x) = (γ·h/(n−1))·[(x/h) − (x/h)^n] + p_vft·(x/h)^n [D; EN 1991-4 §6.3 form, M].</summary>
     public static double VerticalStressKPa(double unitWeightKnM3, double hM, double xM, double n, double topStressKPa)

@@ -26,6 +26,7 @@ public sealed class SiloGeometry
     // Hopper dimensions at the outlet (y = 0), growing by 2·tanβ per metre up to the transition.
     private readonly double _outletWidthM;
     private readonly double _outletLengthM;
+    private readonly double _lengthGrowthPerM; // 2·tanβ, or 0 for a wedge whose end walls stay vertical
     private readonly double _hopperVolumeM3;
 
     public SiloGeometry(GeometryOptions geometry, double angleOfReposeDeg)
@@ -99,11 +100,13 @@ public sealed class SiloGeometry
             {
                 case HopperShape.Conical when Section == SectionShape.Circular:
                     _outletWidthM = _outletLengthM = OutletM;
+                    _lengthGrowthPerM = 2.0 * _tanHopper;
                     break;
                 case HopperShape.Pyramidal when Section != SectionShape.Circular:
                     // Equal slope on all four faces: the outlet of a rectangle is a slot (L − b + o) long.
                     _outletWidthM = OutletM;
                     _outletLengthM = LengthM - WidthM + OutletM;
+                    _lengthGrowthPerM = 2.0 * _tanHopper;
                     break;
                 case HopperShape.Wedge when Section != SectionShape.Circular:
                     // Slopes on the two long walls only; the end walls stay vertical.
@@ -283,11 +286,10 @@ public sealed class SiloGeometry
 
     private (double WidthM, double LengthM) HopperDimensions(double levelM)
     {
-        var grow = 2.0 * _tanHopper * levelM;
-        return (_outletWidthM + grow, _outletLengthM + grow);
+        return (_outletWidthM + (2.0 * _tanHopper * levelM), _outletLengthM + (_lengthGrowthPerM * levelM));
     }
 
-    // ∫0^y A(s) ds in closed form: cone π/4·∫(d_o + 2ts)² ds; rectangle ∫(w_o + 2ts)(l_o + 2ts) ds.
+    // ∫0^y A(s) ds in closed form: cone π/4·∫(d_o + 2ts)² ds; rectangle ∫(w_o + a·s)(l_o + b·s) ds, b = 0 for a wedge.
     private double HopperVolumeBelow(double levelM)
     {
         if (HopperShape == HopperShape.Flat || levelM <= 0)
@@ -306,7 +308,9 @@ public sealed class SiloGeometry
 
         var w0 = _outletWidthM;
         var l0 = _outletLengthM;
-        return (w0 * l0 * y) + (t * (w0 + l0) * y * y) + (4.0 * t * t * y * y * y / 3.0);
+        var a = 2.0 * t;
+        var b = _lengthGrowthPerM;
+        return (w0 * l0 * y) + (((w0 * b) + (l0 * a)) * y * y / 2.0) + (a * b * y * y * y / 3.0);
     }
 
     // Equivalent-surface height of the heap over a section w×l (w ≤ l; circle when w = l and the section is circular).
