@@ -1,0 +1,74 @@
+namespace SiloWatch.Monitoring;
+
+/// <summary>
+/// Robust z-score of each new value against the median and MAD of the previous few values
+/// (Hampel-type filter; 1.4826·MAD estimates σ for Gaussian noise [M: Iglewicz &amp; Hoaglin 1993, from memory]).
+/// Fixed buffers, no allocation per value.
+/// </summary>
+public sealed class SpikeDetector
+{
+    private const double MadToSigma = 1.4826;
+    private readonly double[] _window;
+    private readonly double[] _scratch;
+    private readonly double _threshold;
+    private readonly double _sigmaFloor;
+    private int _count;
+    private int _next;
+
+    /// <param name="windowSize">Values the median and MAD are taken over (at least 5).</param>
+    /// <param name="threshold">Robust z above which a value is a spike.</param>
+    /// <param name="sigmaFloor">Smallest σ assumed, in the value's unit, so a quantised or very quiet signal does not flag its last digit.</param>
+    public SpikeDetector(int windowSize, double threshold, double sigmaFloor)
+    {
+        ArgumentOutOfRangeException.ThrowIfLessThan(windowSize, 5);
+        _window = new double[windowSize];
+        _scratch = new double[windowSize];
+        _threshold = threshold;
+        _sigmaFloor = sigmaFloor;
+    }
+
+    /// <summary>Robust z of the last value tested (0 until the window has filled to half).</summary>
+    public double LastZ { get; private set; }
+
+    /// <summary>Tests a value against the window, then adds it (spikes too, so that a true step is accepted once it persists).</summary>
+    public bool IsSpike(double value)
+    {
+        var spike = false;
+        LastZ = 0;
+        if (_count >= Math.Max(5, _window.Length / 2))
+        {
+            var s = _scratch.AsSpan(0, _count);
+            _window.AsSpan(0, _count).CopyTo(s);
+            s.Sort();
+            var median = Median(s);
+            for (var i = 0; i < s.Length; i++)
+            {
+                s[i] = Math.Abs(s[i] - median);
+            }
+
+            s.Sort();
+            var sigma = Math.Max(MadToSigma * Median(s), _sigmaFloor);
+            LastZ = Math.Abs(value - median) / sigma;
+            spike = LastZ > _threshold;
+        }
+
+        _window[_next] = value;
+        _next = (_next + 1) % _window.Length;
+        if (_count < _window.Length)
+        {
+            _count++;
+        }
+
+        return spike;
+    }
+
+    public void Reset()
+    {
+        _count = 0;
+        _next = 0;
+        LastZ = 0;
+    }
+
+    private static double Median(Span<double> sorted) =>
+        sorted.Length % 2 == 1 ? sorted[sorted.Length / 2] : 0.5 * (sorted[(sorted.Length / 2) - 1] + sorted[sorted.Length / 2]);
+}

@@ -1,0 +1,886 @@
+using System.Text;
+using SiloWatch.Mechanics;
+using SiloWatch.Plant;
+
+namespace SiloWatch.Monitoring;
+
+/// <summary>
+/// Inventory of one silo: converts each sample, judges its quality, and feeds a mass/rate Kalman
+/// filter with the weighing arrangement's measurement of the contents and its variance.
+/// <para>
+/// One instance per silo, called from one thread: no locks inside. <see cref="OnSample"/> is the
+/// hot path (no allocation); <see cref="Evaluate"/>, <see cref="Readings"/> and the commands allocate.
+/// </para>
+/// <para>
+/// Errors are kept in two parts: the random part (sensor noise, estimated online) goes into the
+/// filter, which averages it; the systematic part (cell combined error and span, tare, off-centre
+/// load, K·μ and unit weight of the solid) does not average out and is added to the filter's
+/// variance when the interval is stated.
+/// </para>
+/// </summary>
+public sealed class SiloMonitor
+{
+    private const double Z95 = 1.959963984540054;
+    private const double KgPerKn = 1000.0 / Units.StandardGravity;
+
+    private const QualityFlags CarriedSensorFlags = QualityFlags.TemperatureMissing | QualityFlags.Drift | QualityFlags.Spike | QualityFlags.OverCapacity;
+
+    private readonly SiloRef _silo;
+    private readonly MonitoringOptions _options;
+    private readonly TimeProvider _time;
+    private readonly SensorChannel[] _channels;
+    private readonly int[] _cells;
+    private readonly int[] _ring;
+    private readonly double[] _net;
+    private readonly double[] _ringAngles;
+    private readonly double[] _ringValues;
+    private readonly MassRateFilter _filter;
+    private readonly ShareDriftDetector? _drift;
+    private readonly WeighingArrangement _arrangement;
+    private readonly double _supportScale;
+    private readonly double _eccentricityLeverage;
+    private readonly double _sumCosWeighed;
+    private readonly double _sumSinWeighed;
+    private readonly double _structureKn;
+    private readonly double _ringHeightM;
+    private readonly long _cellStaleAfterMs;
+
+    private SiloModel _model;
+    private double _unitWeightRelStd;
+    private double _kMuRelStd;
+    private InventoryCalibration? _calibration;
+    private TareRecord? _tare;
+
+    private int _scanMask;
+    private int _failedCellMask;
+    private bool _resetPending;
+    private long _lastFusionMs = long.MinValue;
+    private double _lastSysVarKg2;
+    private double _lastConditioning = double.NaN;
+    private QualityFlags _lastFlags = QualityFlags.NoData;
+    private string _method;
+    private long _rejectedSamples;
+
+    public SiloMonitor(SiloRef silo, SiloModel model, MonitoringOptions options, TimeProvider time)
+    {
+        ArgumentNullException.ThrowIfNull(silo);
+        ArgumentNullException.ThrowIfNull(model);
+        ArgumentNullException.ThrowIfNull(options);
+        ArgumentNullException.ThrowIfNull(time);
+        _silo = silo;
+        _model = model;
+        _options = options;
+        _time = time;
+        var sensors = silo.Options.Sensors;
+        _channels = new SensorChannel[sensors.Count];
+        for (var i = 0; i < sensors.Count; i++)
+        {
+            _channels[i] = new SensorChannel(i, sensors[i], options);
+        }
+
+        for (var i = 0; i < sensors.Count; i++)
+        {
+            var pair = sensors[i].TemperatureSensor;
+            if (!string.IsNullOrEmpty(pair) && silo.TryGetSensor(pair, out var t) && t.Options.Kind == SensorKind.Temperature)
+            {
+                _channels[i].TemperatureChannel = t.Index;
+            }
+        }
+
+        var weighing = silo.Options.Weighing;
+        _arrangement = weighing.Arrangement;
+        var cells = new List<int>();
+        if (_arrangement != WeighingArrangement.None)
+        {
+            for (var i = 0; i < sensors.Count; i++)
+            {
+                if (sensors[i].Kind == SensorKind.LoadCell && sensors[i].CapacityKn > 0 && sensors[i].RatedOutputMvPerV > 0)
+                {
+                    _channels[i].CellIndex = cells.Count;
+                    cells.Add(i);
+                }
+            }
+        }
+
+        if (cells.Count > 30)
+        {
+            throw new NotSupportedException($"silo {silo.Key}: more than 30 load cells are not supported");
+        }
+
+        _cells = [.. cells];
+        _net = new double[_cells.Length];
+        _cellStaleAfterMs = _cells.Length == 0 ? long.MaxValue : _cells.Max(c => _channels[c].StaleAfterMs);
+        _drift = _cells.Length >= 2
+            ? new ShareDriftDetector(_cells.Length, options.DriftLearningTime.TotalSeconds, options.DriftSmoothingTime.TotalSeconds, options.DriftShareTolerance)
+            : null;
+        _structureKn = Units.MassKgToWeightKn(weighing.StructureMassKg);
+
+        // Supports: the scale n/m of partial weighing and the leverage of an off-centre load on the weighed set.
+        var n = weighing.SupportCount;
+        var weighedSupports = _cells.Select(c => sensors[c].Support).Where(s => s >= 1 && s <= n).Distinct().ToArray();
+        var m = weighedSupports.Length;
+        _supportScale = _arrangement == WeighingArrangement.SomeSupports && m > 0 ? (double)n / m : 1.0;
+        foreach (var s in weighedSupports)
+        {
+            var a = Units.DegToRad(weighing.FirstSupportAngleDeg + (360.0 * (s - 1) / n));
+            _sumCosWeighed += Math.Cos(a);
+            _sumSinWeighed += Math.Sin(a);
+        }
+
+        // R_i = W/n·[1 + 2(e/R)·cos(θ_i − θ_e)] [D, DOMAIN.md §3] ⇒ Σ_weighed R_i·n/m = W·[1 + (2/m)·(e/R)·Σ cos(θ_i − θ_e)].
+        _eccentricityLeverage = m > 0 ? 2.0 / m * Math.Sqrt((_sumCosWeighed * _sumCosWeighed) + (_sumSinWeighed * _sumSinWeighed)) : 0;
+
+        // The base axial ring: the lowest ring of axial gauges on a circular wall.
+        var ring = new List<int>();
+        if (silo.Options.Geometry.Section == SectionShape.Circular && silo.Options.Geometry.WallThicknessM > 0)
+        {
+            var lowest = sensors
+                .Select((s, i) => (s, i))
+                .Where(x => x.s.Kind == SensorKind.AxialStrain && !string.IsNullOrEmpty(x.s.Ring) && x.s.GaugeFactor > 0)
+                .GroupBy(x => x.s.Ring, StringComparer.Ordinal)
+                .OrderBy(g => g.Min(x => x.s.HeightM))
+                .FirstOrDefault();
+            if (lowest is not null && lowest.Count() >= 3)
+            {
+                foreach (var (s, i) in lowest)
+                {
+                    _channels[i].RingIndex = ring.Count;
+                    _channels[i].AngleRad = Units.DegToRad(s.AngleDeg);
+                    ring.Add(i);
+                }
+
+                _ringHeightM = lowest.Min(x => x.s.HeightM);
+            }
+        }
+
+        _ring = [.. ring];
+        _ringAngles = new double[_ring.Length];
+        _ringValues = new double[_ring.Length];
+
+        _filter = new MassRateFilter(options.ProcessNoiseKg2PerS3, options.InitialRateStdKgPerS, options.ManeuverGate, options.ManeuverGain);
+        (_unitWeightRelStd, _kMuRelStd) = DefaultPropertyStds(model.Material, options);
+        _method = MethodName(false);
+    }
+
+    public string SiteId => _silo.SiteId;
+
+    public string SiloId => _silo.SiloId;
+
+    /// <summary>The model behind level, volume and the floor-load inversion (replaced by a confirmed calibration).</summary>
+    public SiloModel Model => _model;
+
+    /// <summary>The last commanded tare, or null (the structure mass is then the tare estimate).</summary>
+    public TareRecord? LastTare => _tare;
+
+    public InventoryCalibration? Calibration => _calibration;
+
+    /// <summary>Samples ignored because they named a sensor this silo does not have.</summary>
+    public long RejectedSamples => _rejectedSamples;
+
+    /// <summary>Converts one sample, judges it and, when a scan of the weighing cells is complete, updates the estimate. No allocation.</summary>
+    public void OnSample(in TelemetrySample sample)
+    {
+        if ((uint)sample.SensorIndex >= (uint)_channels.Length)
+        {
+            _rejectedSamples++;
+            return;
+        }
+
+        var ch = _channels[sample.SensorIndex];
+        var ts = sample.TimestampMs;
+        var raw = sample.Value;
+        var o = ch.Options;
+        ch.Raw = raw;
+        ch.LastMs = ts;
+
+        if (!double.IsFinite(raw) || raw < o.RangeMin || raw > o.RangeMax)
+        {
+            ch.SampleFlags = QualityFlags.OutOfRange;
+            ch.Noise.Break();
+            ch.Stuck.Reset();
+            AfterCellSample(ch, ts);
+            return;
+        }
+
+        var flags = QualityFlags.None;
+        if (raw <= ch.SaturationLow || raw >= ch.SaturationHigh)
+        {
+            flags |= QualityFlags.Saturated;
+        }
+
+        if (ch.Stuck.Update(raw, ts))
+        {
+            flags |= QualityFlags.Stuck;
+        }
+
+        var spike = ch.Spike.IsSpike(raw);
+
+        double temperatureC = o.ReferenceTemperatureC;
+        if (ch.TemperatureChannel >= 0)
+        {
+            var t = _channels[ch.TemperatureChannel];
+            if (t.UsableAt(ts))
+            {
+                temperatureC = t.Value;
+            }
+            else
+            {
+                flags |= QualityFlags.TemperatureMissing;
+            }
+        }
+
+        var value = ch.Kind switch
+        {
+            SensorKind.LoadCell => o.CapacityKn > 0 && o.RatedOutputMvPerV > 0 ? LoadCellConversion.ForceKn(raw, o, temperatureC) : double.NaN,
+            SensorKind.AxialStrain or SensorKind.HoopStrain => o.GaugeFactor > 0
+                ? StrainConversion.StrainMicro(raw, o, _silo.Options.Geometry.WallPoissonRatio, temperatureC)
+                : double.NaN,
+            _ => raw,
+        };
+
+        if (ch.Kind == SensorKind.LoadCell && Math.Abs(value) > o.CapacityKn)
+        {
+            flags |= QualityFlags.OverCapacity;
+        }
+
+        if (spike)
+        {
+            // Keep the previous value: one wild sample must not move the inventory.
+            flags |= QualityFlags.Spike;
+            ch.Noise.Break();
+        }
+        else
+        {
+            ch.Noise.Update(value);
+            ch.Value = value;
+        }
+
+        ch.SampleFlags = flags;
+        AfterCellSample(ch, ts);
+    }
+
+    /// <summary>The inventory at a time, for publishing: the filter predicted to <paramref name="nowUnixMs"/>, with the stated uncertainty and quality.</summary>
+    public InventoryEstimate Evaluate(long nowUnixMs)
+    {
+        var flags = _lastFlags;
+        if (!_filter.Initialised)
+        {
+            flags |= _cells.Length == 0 ? QualityFlags.InsufficientSensors : QualityFlags.NoData;
+            return new InventoryEstimate(SiteId, SiloId, nowUnixMs, double.NaN, double.NaN, double.NaN, double.NaN, double.NaN, double.NaN,
+                double.NaN, double.NaN, double.NaN, double.NaN, double.NaN, null, null, flags.Severity(), Reason(flags, nowUnixMs), _method);
+        }
+
+        double massKg, rateKgPerS, p00, p11;
+        if (nowUnixMs - _lastFusionMs > _cellStaleAfterMs)
+        {
+            // No weighing data: hold the last estimate rather than extrapolate a rate into the unknown.
+            flags |= QualityFlags.Stale | QualityFlags.Held;
+            (massKg, rateKgPerS, p00, p11) = (_filter.MassKg, _filter.RateKgPerS, _filter.P00, _filter.P11);
+        }
+        else
+        {
+            (massKg, rateKgPerS, p00, _, p11) = _filter.PredictedAt(nowUnixMs);
+        }
+
+        var massStd = Math.Sqrt(Math.Max(0, p00) + _lastSysVarKg2);
+        var rateStd = Math.Sqrt(Math.Max(0, p11));
+        var rho = _model.Expected.BulkDensityKgM3;
+        var capacityM3 = _model.CapacityM3;
+        var capacityKg = capacityM3 * rho;
+        if (massStd > _options.MaxConfidentStdFraction * capacityKg)
+        {
+            flags |= QualityFlags.PoorlyConditioned;
+        }
+
+        if (massKg < -Z95 * massStd || massKg > capacityKg * (1 + (2 * _unitWeightRelStd)) + (Z95 * massStd))
+        {
+            flags |= QualityFlags.OutsidePhysicalRange;
+        }
+
+        var volume = massKg / rho;
+        var volumeStd = Math.Sqrt(Math.Pow(massStd / rho, 2) + Math.Pow(volume * _unitWeightRelStd, 2));
+        var level = _model.LevelAtVolume(Math.Clamp(volume, 0, capacityM3));
+        var levelLow = _model.LevelAtVolume(Math.Clamp(volume - (Z95 * volumeStd), 0, capacityM3));
+        var levelHigh = _model.LevelAtVolume(Math.Clamp(volume + (Z95 * volumeStd), 0, capacityM3));
+
+        double? timeToEmpty = null;
+        double? timeToFull = null;
+        var rateThreshold = Math.Max(_options.MinRateKgPerS, Z95 * rateStd);
+        if (rateKgPerS < -rateThreshold && massKg > 0)
+        {
+            timeToEmpty = massKg / -rateKgPerS;
+        }
+        else if (rateKgPerS > rateThreshold && massKg < capacityKg)
+        {
+            timeToFull = (capacityKg - massKg) / rateKgPerS;
+        }
+
+        return new InventoryEstimate(
+            SiteId,
+            SiloId,
+            nowUnixMs,
+            massKg,
+            massKg - (Z95 * massStd),
+            massKg + (Z95 * massStd),
+            level,
+            levelLow,
+            levelHigh,
+            volume,
+            volume / capacityM3 * 100.0,
+            rateKgPerS,
+            rateKgPerS - (Z95 * rateStd),
+            rateKgPerS + (Z95 * rateStd),
+            timeToEmpty,
+            timeToFull,
+            flags.Severity(),
+            Reason(flags, nowUnixMs),
+            _method);
+    }
+
+    /// <summary>Last converted value, raw value and quality of every sensor, judged against the clock now.</summary>
+    public IReadOnlyList<SensorReading> Readings
+    {
+        get
+        {
+            var now = _time.GetUtcNow().ToUnixTimeMilliseconds();
+            var list = new SensorReading[_channels.Length];
+            for (var i = 0; i < _channels.Length; i++)
+            {
+                var ch = _channels[i];
+                var flags = ch.FlagsAt(now);
+                list[i] = new SensorReading(ch.Options.Id, ch.Kind, ch.LastMs == long.MinValue ? 0 : ch.LastMs, ch.Value, ch.EngineeringUnit,
+                    ch.Raw, ch.Options.Unit, flags.Severity(), flags.Describe());
+            }
+
+            return list;
+        }
+    }
+
+    /// <summary>Robust z-score of the last sample of a sensor (diagnostics).</summary>
+    public double LastSpikeZ(int sensorIndex) => _channels[sensorIndex].Spike.LastZ;
+
+    /// <summary>Quality flags of one sensor at a time (tests and diagnostics).</summary>
+    public QualityFlags SensorFlags(int sensorIndex, long nowUnixMs) => _channels[sensorIndex].FlagsAt(nowUnixMs);
+
+    /// <summary>
+    /// Commanded tare with the silo known empty: the present value of every weighing cell (and of
+    /// every wall gauge) becomes its zero. Recorded with when and by whom.
+    /// </summary>
+    /// <exception cref="InvalidOperationException">a weighing cell has no usable value (the message names it and why).</exception>
+    public TareRecord Tare(string by, long nowUnixMs)
+    {
+        ArgumentException.ThrowIfNullOrWhiteSpace(by);
+        foreach (var c in _cells)
+        {
+            var ch = _channels[c];
+            if (!ch.UsableAt(nowUnixMs))
+            {
+                var why = ch.FlagsAt(nowUnixMs).Describe();
+                throw new InvalidOperationException($"cannot tare {_silo.Key}: load cell {ch.Options.Id} is {(why.Length == 0 ? "without a value" : why)}");
+            }
+        }
+
+        var before = Evaluate(nowUnixMs).MassKg;
+        var values = new List<TareValue>();
+        foreach (var ch in _channels)
+        {
+            var isWeighing = ch.CellIndex >= 0;
+            var isGauge = ch.Kind is SensorKind.AxialStrain or SensorKind.HoopStrain;
+            if ((isWeighing || isGauge) && ch.UsableAt(nowUnixMs))
+            {
+                ch.TareValue = ch.Value;
+                values.Add(new TareValue(ch.Options.Id, ch.Value, ch.EngineeringUnit));
+            }
+        }
+
+        _tare = new TareRecord(SiteId, SiloId, nowUnixMs, by, values, before);
+        _resetPending = true;
+        return _tare;
+    }
+
+    /// <summary>Applies a confirmed calibration of the solid (the CLI or journal calls this after a person confirmed the fit).</summary>
+    public void ApplyCalibration(InventoryCalibration calibration)
+    {
+        ArgumentNullException.ThrowIfNull(calibration);
+        ArgumentException.ThrowIfNullOrWhiteSpace(calibration.ConfirmedBy);
+        var p = _model.Expected;
+        var gamma = calibration.UnitWeightKnM3 ?? p.UnitWeightKnM3;
+        var kMu = calibration.KMu ?? p.KMu;
+        if (!(gamma > 0 && gamma < 100 && kMu > 0 && kMu < 2))
+        {
+            throw new ArgumentOutOfRangeException(nameof(calibration), $"calibration out of physical range: unit weight {gamma} kN/m3, K·μ {kMu}");
+        }
+
+        _model = _model.WithExpected(new SolidProperties(gamma, p.K, kMu / p.K));
+        var (gStd, kStd) = DefaultPropertyStds(_model.Material, _options);
+        _unitWeightRelStd = calibration.UnitWeightKnM3 is null ? gStd : calibration.UnitWeightRelativeStd ?? gStd;
+        _kMuRelStd = calibration.KMu is null ? kStd : calibration.KMuRelativeStd ?? kStd;
+        _calibration = calibration;
+        if (_arrangement == WeighingArrangement.FloorOnly)
+        {
+            _resetPending = true;
+        }
+    }
+
+    /// <summary>Tare, learned load shares and calibration, for a restart.</summary>
+    public MonitorSnapshot Snapshot() =>
+        new(MonitorSnapshot.CurrentVersion, SiteId, SiloId, _time.GetUtcNow().ToUnixTimeMilliseconds(), _tare, _drift?.Pattern(), _calibration);
+
+    /// <summary>
+    /// Restores a snapshot taken by <see cref="Snapshot"/>. Returns what could not be restored (a
+    /// sensor no longer in the plant definition, a changed cell count), empty when all was.
+    /// </summary>
+    public IReadOnlyList<string> Restore(MonitorSnapshot snapshot)
+    {
+        ArgumentNullException.ThrowIfNull(snapshot);
+        if (snapshot.SiteId != SiteId || snapshot.SiloId != SiloId)
+        {
+            throw new ArgumentException($"snapshot is for {snapshot.SiteId}/{snapshot.SiloId}, not {_silo.Key}", nameof(snapshot));
+        }
+
+        var problems = new List<string>();
+        if (snapshot.Version != MonitorSnapshot.CurrentVersion)
+        {
+            problems.Add($"snapshot version {snapshot.Version} is not {MonitorSnapshot.CurrentVersion}: nothing restored");
+            return problems;
+        }
+
+        if (snapshot.Tare is { } tare)
+        {
+            foreach (var v in tare.Values)
+            {
+                if (_silo.TryGetSensor(v.SensorId, out var s) && _channels[s.Index].EngineeringUnit == v.Unit)
+                {
+                    _channels[s.Index].TareValue = v.Value;
+                }
+                else
+                {
+                    problems.Add($"tare value of sensor '{v.SensorId}' ({v.Unit}) has no matching sensor now");
+                }
+            }
+
+            _tare = tare;
+            _resetPending = true;
+        }
+
+        if (snapshot.LoadShares is { } shares && _drift is not null)
+        {
+            if (shares.Count == _drift.Count && shares.All(double.IsFinite))
+            {
+                _drift.SetPattern([.. shares]);
+            }
+            else
+            {
+                problems.Add($"load shares for {shares.Count} cells, the silo has {_drift.Count}: learning again");
+            }
+        }
+
+        if (snapshot.Calibration is { } cal)
+        {
+            ApplyCalibration(cal);
+        }
+
+        return problems;
+    }
+
+    private void AfterCellSample(SensorChannel ch, long ts)
+    {
+        if (ch.CellIndex < 0)
+        {
+            return;
+        }
+
+        var bit = 1 << ch.CellIndex;
+        if ((_scanMask & bit) != 0)
+        {
+            // This cell again before the others reported: fuse what the scan has, then start the next.
+            FuseScan(ts);
+        }
+
+        _scanMask |= bit;
+        var required = 0;
+        for (var k = 0; k < _cells.Length; k++)
+        {
+            if (_channels[_cells[k]].UsableAt(ts))
+            {
+                required |= 1 << k;
+            }
+        }
+
+        if (required != 0 && (_scanMask & required) == required)
+        {
+            FuseScan(ts);
+        }
+    }
+
+    private void FuseScan(long ts)
+    {
+        _scanMask = 0;
+        var flags = QualityFlags.None;
+        var used = 0;
+        double sumNet = 0, sumShareUsed = 0, randVarKn = 0, sysVarKn = 0, failedShareStd = 0;
+        var failed = 0;
+        var tared = true;
+        for (var k = 0; k < _cells.Length; k++)
+        {
+            var ch = _channels[_cells[k]];
+            if (!ch.UsableAt(ts))
+            {
+                failed |= 1 << k;
+                failedShareStd += _drift?.ShareStd(k) ?? 0;
+                _net[k] = double.NaN;
+                continue;
+            }
+
+            var tareKn = ch.TareValue;
+            if (double.IsNaN(tareKn))
+            {
+                tareKn = _structureKn / _cells.Length;
+                tared = false;
+            }
+
+            var net = ch.Value - tareKn;
+            _net[k] = net;
+            sumNet += net;
+            sumShareUsed += _drift?.ExpectedShare(k) ?? 1.0;
+            randVarKn += ch.Noise.Variance;
+            sysVarKn += CellSystematicVarKn2(ch.Options, net);
+            if (ch.Drifting && _drift is not null)
+            {
+                // Drifting but still used: widen by how far its share has moved.
+                var d = _drift.Departure(k) * Math.Max(sumNet, 0);
+                sysVarKn += d * d;
+            }
+
+            flags |= ch.FlagsAt(ts) & CarriedSensorFlags;
+            used++;
+        }
+
+        _failedCellMask = failed;
+        if (used == 0 || used * 2 < _cells.Length || (failed != 0 && _drift is null))
+        {
+            _lastFlags = QualityFlags.InsufficientSensors | (flags & CarriedSensorFlags);
+            return;
+        }
+
+        if (!tared)
+        {
+            flags |= QualityFlags.NotTared;
+            var s = _options.StructureMassUncertaintyPct / 100.0 * _structureKn;
+            sysVarKn += s * s;
+        }
+
+        double totalKn;
+        if (failed != 0)
+        {
+            // Failed cells replaced by their expected share of the total [D: Σ_used F = W·Σ_used share].
+            totalKn = sumNet / sumShareUsed;
+            randVarKn /= sumShareUsed * sumShareUsed;
+            sysVarKn /= sumShareUsed * sumShareUsed;
+            var sub = totalKn * failedShareStd / sumShareUsed;
+            sysVarKn += sub * sub;
+            flags |= QualityFlags.Substituted;
+        }
+        else
+        {
+            totalKn = sumNet;
+            UpdateDrift(ts, totalKn);
+        }
+
+        double massKg, randVarKg, sysVarKg;
+        var method = MethodName(false);
+        switch (_arrangement)
+        {
+            case WeighingArrangement.AllSupports:
+                (massKg, randVarKg, sysVarKg) = (totalKn * KgPerKn, randVarKn * KgPerKn * KgPerKn, sysVarKn * KgPerKn * KgPerKn);
+                break;
+            case WeighingArrangement.SomeSupports:
+                (massKg, randVarKg, sysVarKg, flags) = PartialWeighing(totalKn, randVarKn, sysVarKn, flags, ts);
+                break;
+            case WeighingArrangement.FloorOnly:
+                if (!FloorWeighing(totalKn, randVarKn, sysVarKn, ref flags, ts, out massKg, out randVarKg, out sysVarKg, out var withRing))
+                {
+                    _lastFlags = flags;
+                    _method = MethodName(withRing);
+                    return;
+                }
+
+                method = MethodName(withRing);
+                break;
+            default:
+                return;
+        }
+
+        if (_resetPending || !_filter.Initialised || ts - _lastFusionMs > 10 * _cellStaleAfterMs)
+        {
+            _filter.Reset(ts, massKg, randVarKg);
+            _resetPending = false;
+        }
+        else
+        {
+            _filter.Update(ts, massKg, randVarKg);
+        }
+
+        var dtS = _lastFusionMs == long.MinValue ? 0.0 : (ts - _lastFusionMs) / 1000.0;
+        _lastFusionMs = ts;
+        _lastSysVarKg2 = sysVarKg;
+        _lastFlags = flags;
+        _method = method;
+        ZeroTracking(ts, dtS);
+    }
+
+    private (double MassKg, double RandVarKg, double SysVarKg, QualityFlags Flags) PartialWeighing(
+        double weighedKn, double randVarKn, double sysVarKn, QualityFlags flags, long ts)
+    {
+        var totalKn = weighedKn * _supportScale;
+        var randVar = randVarKn * _supportScale * _supportScale;
+        var sysVar = sysVarKn * _supportScale * _supportScale;
+        var residualStd = _options.EccentricityRatioStd;
+        if (TryRingFit(ts, out var c0, out var a1, out var b1) && Math.Abs(c0) > 5.0)
+        {
+            // Wall ring: n(θ) = n0·[1 + 2(e/r)·cos(θ − θ_e)] for a thin shell under N and M = N·e [D];
+            // (a1, b1)/c0 points at the load's offset (compression negative on both). Referred to the support radius.
+            var r = 0.5 * _silo.Options.Geometry.DiameterM;
+            var rs = _silo.Options.Weighing.SupportRadiusM > 0 ? _silo.Options.Weighing.SupportRadiusM : r;
+            var ex = a1 / c0 * r / (2 * rs);
+            var ey = b1 / c0 * r / (2 * rs);
+            var m = _supportScale > 0 ? _silo.Options.Weighing.SupportCount / _supportScale : 1;
+            var correction = 1 + (2.0 / m * ((ex * _sumCosWeighed) + (ey * _sumSinWeighed)));
+            if (correction > 0.2)
+            {
+                totalKn /= correction;
+                randVar /= correction * correction;
+                sysVar /= correction * correction;
+                // The wall share's offset stands for the whole load's only roughly: keep half the prior spread.
+                residualStd = 0.5 * _options.EccentricityRatioStd;
+            }
+            else
+            {
+                flags |= QualityFlags.PartialWeighing;
+            }
+        }
+        else
+        {
+            flags |= QualityFlags.PartialWeighing;
+        }
+
+        var ecc = totalKn * _eccentricityLeverage * residualStd;
+        sysVar += ecc * ecc;
+        return (totalKn * KgPerKn, randVar * KgPerKn * KgPerKn, sysVar * KgPerKn * KgPerKn, flags);
+    }
+
+    private bool FloorWeighing(double floorKn, double randVarKn, double sysVarKn, ref QualityFlags flags, long ts,
+        out double massKg, out double randVarKg, out double sysVarKg, out bool withRing)
+    {
+        massKg = randVarKg = sysVarKg = double.NaN;
+        withRing = false;
+        var p = _model.Expected;
+        var inv = _model.InvertFloorLoad(floorKn, p);
+
+        if (_ring.Length >= 3 && TryRingFit(ts, out var c0, out _, out _, out var ringNoiseMicro2))
+        {
+            // Total = floor + U·n_z at the ring + the friction between ring and transition (model) [D, DOMAIN.md §3].
+            var g = _silo.Options.Geometry;
+            var prior = _filter.Initialised ? _filter.MassKg : inv.HasLevel ? inv.MassKg : floorKn * KgPerKn;
+            var state = _model.StateAtMass(Math.Max(0, prior));
+            var atRing = _model.WallAt(state, _ringHeightM);
+            var atBase = _model.WallAt(state, 0);
+            var hoopStressKPa = double.IsFinite(atRing.HoopForceKnPerM) ? atRing.HoopForceKnPerM / g.WallThicknessM : 0;
+            var axialStressKPa = MembraneForces.AxialStressFromAxialStrainKPa(c0, hoopStressKPa, g.WallYoungsModulusGPa, g.WallPoissonRatio);
+            var nzKnPerM = -MembraneForces.ForcePerMetreKnPerM(axialStressKPa, g.WallThicknessM);
+            var wallKn = _model.PerimeterM * nzKnPerM;
+            var belowKn = _model.PerimeterM * Math.Max(0, atBase.AxialForceKnPerM - atRing.AxialForceKnPerM);
+            var totalKn = floorKn + wallKn + belowKn;
+            var perMicro = _model.PerimeterM * g.WallYoungsModulusGPa * g.WallThicknessM;
+            var ringRand = perMicro * perMicro * ringNoiseMicro2;
+            var ringSys = Math.Pow(wallKn * _options.WallRingRelativeStd, 2) + Math.Pow(0.5 * belowKn, 2);
+            massKg = totalKn * KgPerKn;
+            randVarKg = (randVarKn + ringRand) * KgPerKn * KgPerKn;
+            sysVarKg = (sysVarKn + ringSys) * KgPerKn * KgPerKn;
+            withRing = true;
+            _lastConditioning = 1.0;
+            return true;
+        }
+
+        if (_ring.Length >= 3)
+        {
+            flags |= QualityFlags.WallRingUnavailable;
+        }
+
+        switch (inv.Status)
+        {
+            case InversionStatus.AboveSaturation:
+                flags |= QualityFlags.NoSolution;
+                _lastConditioning = double.PositiveInfinity;
+                return false;
+            case InversionStatus.Empty:
+                massKg = floorKn * KgPerKn;
+                randVarKg = randVarKn * KgPerKn * KgPerKn;
+                sysVarKg = sysVarKn * KgPerKn * KgPerKn;
+                _lastConditioning = 1.0;
+                return true;
+            case InversionStatus.AboveFullLevel:
+                flags |= QualityFlags.OutsidePhysicalRange;
+                break;
+        }
+
+        // Sensitivities by finite differences through the mechanics model's inversion:
+        // ∂m/∂F (load noise and load-cell errors), ∂m/∂ln(K·μ) and ∂m/∂ln γ (properties of the solid).
+        var m0 = inv.MassKg;
+        var dF = Math.Max(1e-3 * floorKn, 0.05);
+        var capacityKg = _model.CapacityKg;
+        var dmdF = Slope(_model.InvertFloorLoad(floorKn + dF, p), m0, dF, capacityKg);
+        const double h = 0.01;
+        var dmdLnKMu = Slope(_model.InvertFloorLoad(floorKn, p.WithKMu(p.KMu * (1 + h))), m0, h, capacityKg);
+        var dmdLnGamma = Slope(_model.InvertFloorLoad(floorKn, p with { UnitWeightKnM3 = p.UnitWeightKnM3 * (1 + h) }), m0, h, capacityKg);
+
+        massKg = m0;
+        randVarKg = dmdF * dmdF * randVarKn;
+        sysVarKg = (dmdF * dmdF * sysVarKn) + Math.Pow(dmdLnKMu * _kMuRelStd, 2) + Math.Pow(dmdLnGamma * _unitWeightRelStd, 2);
+        _lastConditioning = m0 > 0 ? Math.Abs(dmdF) * floorKn / m0 : 1.0;
+        if (_lastConditioning > _options.ConditioningLimit)
+        {
+            flags |= QualityFlags.PoorlyConditioned;
+        }
+
+        return true;
+
+        // A perturbed inversion past saturation: the derivative is unbounded; say so by the capacity per step.
+        static double Slope(in InversionResult r, double m0, double step, double capacityKg) =>
+            r.HasLevel ? (r.MassKg - m0) / step : capacityKg / step;
+    }
+
+    private bool TryRingFit(long ts, out double c0, out double a1, out double b1) => TryRingFit(ts, out c0, out a1, out b1, out _);
+
+    private bool TryRingFit(long ts, out double c0, out double a1, out double b1, out double meanNoiseVar)
+    {
+        c0 = a1 = b1 = meanNoiseVar = 0;
+        var count = 0;
+        for (var j = 0; j < _ring.Length; j++)
+        {
+            var ch = _channels[_ring[j]];
+            if (!ch.UsableAt(ts) || double.IsNaN(ch.TareValue))
+            {
+                continue;
+            }
+
+            _ringAngles[count] = ch.AngleRad;
+            _ringValues[count] = ch.Value - ch.TareValue;
+            meanNoiseVar += ch.Noise.Variance;
+            count++;
+        }
+
+        if (count < 3)
+        {
+            return false;
+        }
+
+        // The mean over n gauges has 1/n of one gauge's noise variance.
+        meanNoiseVar /= (double)count * count;
+        return RingFit.TryFit(_ringAngles.AsSpan(0, count), _ringValues.AsSpan(0, count), out c0, out a1, out b1);
+    }
+
+    private void UpdateDrift(long ts, double totalKn)
+    {
+        if (_drift is null)
+        {
+            return;
+        }
+
+        var significant = totalKn * KgPerKn > _options.DriftMinLoadFraction * _model.CapacityKg;
+        var mask = _drift.Update(_net, ts, significant);
+        for (var k = 0; k < _cells.Length; k++)
+        {
+            _channels[_cells[k]].Drifting = (mask & (1 << k)) != 0;
+        }
+    }
+
+    private void ZeroTracking(long ts, double dtS)
+    {
+        if (!_options.ZeroTrackingEnabled || _tare is null || dtS <= 0)
+        {
+            return;
+        }
+
+        var band = _options.ZeroTrackingBandPct / 100.0 * _model.CapacityKg;
+        if (Math.Abs(_filter.MassKg) > band || Math.Abs(_filter.RateKgPerS) > _options.MinRateKgPerS)
+        {
+            return;
+        }
+
+        // Pull each cell's zero towards its present value with the tracking time constant; the filter follows.
+        var alpha = 1 - Math.Exp(-dtS / Math.Max(1.0, _options.ZeroTrackingTime.TotalSeconds));
+        var shiftKn = 0.0;
+        foreach (var c in _cells)
+        {
+            var ch = _channels[c];
+            if (ch.UsableAt(ts) && !double.IsNaN(ch.TareValue))
+            {
+                var d = alpha * (ch.Value - ch.TareValue);
+                ch.TareValue += d;
+                shiftKn += d;
+            }
+        }
+
+        _filter.Shift(-shiftKn * _supportScale * KgPerKn);
+    }
+
+    private double CellSystematicVarKn2(SensorOptions cell, double netKn)
+    {
+        // Combined error as a rectangular bound (standard uncertainty = bound/√3, GUM [M]); span error on the net load.
+        var combined = _options.LoadCellCombinedErrorPctRo / 100.0 * cell.CapacityKn / Math.Sqrt(3);
+        var span = _options.LoadCellSpanUncertaintyPct / 100.0 * netKn;
+        return (combined * combined) + (span * span);
+    }
+
+    private string Reason(QualityFlags flags, long nowMs)
+    {
+        var text = flags.Describe();
+        if (_failedCellMask == 0 && (flags & QualityFlags.Drift) == 0)
+        {
+            return text;
+        }
+
+        var sb = new StringBuilder(text);
+        for (var k = 0; k < _cells.Length; k++)
+        {
+            var ch = _channels[_cells[k]];
+            var f = ch.FlagsAt(nowMs);
+            if ((_failedCellMask & (1 << k)) != 0 || ch.Drifting)
+            {
+                sb.Append(sb.Length > 0 ? "; " : "").Append(ch.Options.Id).Append(": ").Append(f.Describe());
+            }
+        }
+
+        if (double.IsFinite(_lastConditioning) && _lastConditioning > _options.ConditioningLimit)
+        {
+            sb.Append(sb.Length > 0 ? "; " : "").Append(System.Globalization.CultureInfo.InvariantCulture, $"1 % of floor load is {_lastConditioning:0.#} % of mass");
+        }
+
+        return sb.ToString();
+    }
+
+    private string MethodName(bool withRing) => _arrangement switch
+    {
+        WeighingArrangement.AllSupports => "all-supports",
+        WeighingArrangement.SomeSupports => "some-supports",
+        WeighingArrangement.FloorOnly => withRing ? "floor+wall-rings" : "floor-janssen",
+        _ => "none",
+    };
+
+    /// <summary>σ of the unit weight (relative) and of ln(K·μ) from the options, else from the material.</summary>
+    internal static (double UnitWeightRelStd, double KMuRelStd) DefaultPropertyStds(Material material, MonitoringOptions options)
+    {
+        // Unit weight: uniform over the library's [lower, upper] range: σ = (u − l)/√12 [D: a choice].
+        var gamma = options.UnitWeightRelativeStd > 0
+            ? options.UnitWeightRelativeStd
+            : (material.UnitWeightUpperKnM3 - material.UnitWeightLowerKnM3) / Math.Sqrt(12) / material.UnitWeightMeanKnM3;
+
+        // K·μ: the characteristic values X_m·a and X_m/a taken as 95 % fractiles of a log-normal [D: EN 1990 reads
+        // characteristic values as 5 %/95 % fractiles, M], so σ_ln = ln(a)/1.645 for each, combined.
+        var kMu = options.KMuRelativeStd > 0
+            ? options.KMuRelativeStd
+            : Math.Sqrt(Math.Pow(Math.Log(material.KFactor), 2) + Math.Pow(Math.Log(material.WallFrictionFactor), 2)) / 1.645;
+        return (gamma, kMu);
+    }
+}
