@@ -1,0 +1,254 @@
+using System.Collections.Concurrent;
+using Microsoft.Extensions.Logging;
+
+namespace SiloWatch.Storage;
+
+/// <summary>
+/// Reduces points to one per interval and series before they reach the store, by measurement:
+/// each field takes its aggregate (mean, min, max or last of its finite values), fields named in
+/// MinMaxFields also get "{field}_min" and "{field}_max". Intervals are aligned to the Unix epoch
+/// and stamped with their start, so a restart or a replay produces the same series and timestamps.
+/// <para>
+/// An interval is emitted when the series' first point of a later interval arrives, on
+/// <see cref="FlushAsync"/>, or once the series has been silent for two intervals of wall time
+/// (a sensor that stops still gets its last interval written). A point arriving for an interval
+/// emitted that way is merged and the interval is written again with the same timestamp (the store
+/// keeps the newer value). A point older than the interval being filled is counted in
+/// <see cref="StorageHealth.LatePoints"/>, logged, and not written.
+/// </para>
+/// Measurements without a rule (or with Interval 0) pass through unchanged.
+/// </summary>
+public sealed partial class Downsampler : ITimeSeriesSink
+{
+    private readonly ITimeSeriesSink _inner;
+    private readonly Dictionary<string, DownsamplingOptions> _rules;
+    private readonly TimeProvider _timeProvider;
+    private readonly ILogger _logger;
+    private readonly ConcurrentDictionary<SeriesKey, SeriesState?> _states = new();
+    private readonly ITimer? _idleTimer;
+    private long _late;
+    private int _disposed;
+
+    public Downsampler(ITimeSeriesSink inner, IReadOnlyDictionary<string, DownsamplingOptions> rules, TimeProvider timeProvider, ILogger<Downsampler> logger)
+    {
+        ArgumentNullException.ThrowIfNull(inner);
+        ArgumentNullException.ThrowIfNull(rules);
+        ArgumentNullException.ThrowIfNull(timeProvider);
+        ArgumentNullException.ThrowIfNull(logger);
+        _inner = inner;
+        _rules = rules.Where(r => r.Value.Interval > TimeSpan.Zero).ToDictionary(r => r.Key, r => r.Value, StringComparer.Ordinal);
+        _timeProvider = timeProvider;
+        _logger = logger;
+        if (_rules.Count > 0)
+        {
+            var period = _rules.Values.Min(r => r.Interval);
+            _idleTimer = timeProvider.CreateTimer(static s => ((Downsampler)s!).CloseIdle(), this, period, period);
+        }
+    }
+
+    public StorageHealth Health => _inner.Health with { LatePoints = _inner.Health.LatePoints + Interlocked.Read(ref _late) };
+
+    public void Write(SeriesKey series, long timestampMs, ReadOnlySpan<double> values)
+    {
+        ArgumentNullException.ThrowIfNull(series);
+        if (!_states.TryGetValue(series, out var state))
+        {
+            state = _states.GetOrAdd(series, CreateState);
+        }
+
+        if (state is null)
+        {
+            _inner.Write(series, timestampMs, values);
+            return;
+        }
+
+        if (values.Length != series.FieldNames.Count)
+        {
+            throw new ArgumentException($"{series.Measurement} takes {series.FieldNames.Count} values, got {values.Length}", nameof(values));
+        }
+
+        if (!state.Add(timestampMs, values, _timeProvider.GetTimestamp(), _inner))
+        {
+            var late = Interlocked.Increment(ref _late);
+            if (long.IsPow2(late))
+            {
+                // 1st, 2nd, 4th, 8th ... late point: visible without flooding the log.
+                LogLate(_logger, series.ToString(), timestampMs, late);
+            }
+        }
+    }
+
+    /// <summary>Emits every partly filled interval, then flushes the store behind.</summary>
+    public async Task FlushAsync(CancellationToken ct)
+    {
+        EmitAll();
+        await _inner.FlushAsync(ct).ConfigureAwait(false);
+    }
+
+    public async ValueTask DisposeAsync()
+    {
+        if (Interlocked.Exchange(ref _disposed, 1) == 1)
+        {
+            return;
+        }
+
+        if (_idleTimer is not null)
+        {
+            await _idleTimer.DisposeAsync().ConfigureAwait(false);
+        }
+
+        EmitAll();
+        await _inner.DisposeAsync().ConfigureAwait(false);
+    }
+
+    private void EmitAll()
+    {
+        foreach (var state in _states.Values)
+        {
+            state?.EmitIfDirty(_inner);
+        }
+    }
+
+    private void CloseIdle()
+    {
+        var now = _timeProvider.GetTimestamp();
+        foreach (var state in _states.Values)
+        {
+            if (state is not null && _timeProvider.GetElapsedTime(state.LastArrival, now) >= state.Interval * 2)
+            {
+                state.EmitIfDirty(_inner);
+            }
+        }
+    }
+
+    private SeriesState? CreateState(SeriesKey series) =>
+        _rules.TryGetValue(series.Measurement, out var rule) ? new SeriesState(series, rule) : null;
+
+    [LoggerMessage(Level = LogLevel.Warning, Message = "Downsampling: point of {Series} at {TimestampMs} is older than the interval being filled and is not written ({LateCount} so far)")]
+    private static partial void LogLate(ILogger logger, string series, long timestampMs, long lateCount);
+
+    /// <summary>The interval being filled for one series. Guarded by its own lock: one series normally comes from one thread.</summary>
+    private sealed class SeriesState
+    {
+        private readonly Lock _lock = new();
+        private readonly SeriesKey _output;
+        private readonly long _intervalMs;
+        private readonly DownsampleAggregate[] _aggregates;
+        private readonly int[] _minMaxInputs;
+        private readonly double[] _sum;
+        private readonly int[] _count;
+        private readonly double[] _min;
+        private readonly double[] _max;
+        private readonly double[] _last;
+        private long _bucket = long.MinValue;
+        private bool _dirty;
+
+        public SeriesState(SeriesKey input, DownsamplingOptions rule)
+        {
+            _intervalMs = Math.Max(1, (long)rule.Interval.TotalMilliseconds);
+            Interval = TimeSpan.FromMilliseconds(_intervalMs);
+            var n = input.FieldNames.Count;
+            _aggregates = [.. input.FieldNames.Select(f => rule.FieldAggregates.TryGetValue(f, out var a) ? a : rule.Aggregate)];
+            _minMaxInputs = [.. rule.MinMaxFields.Select(f => input.FieldNames.ToList().IndexOf(f)).Where(i => i >= 0).Distinct()];
+            var outputFields = input.FieldNames.Concat(_minMaxInputs.SelectMany(i => new[] { input.FieldNames[i] + "_min", input.FieldNames[i] + "_max" }));
+            _output = new SeriesKey(input.Measurement, input.Tags, outputFields);
+            _sum = new double[n];
+            _count = new int[n];
+            _min = new double[n];
+            _max = new double[n];
+            _last = new double[n];
+            Reset(long.MinValue);
+        }
+
+        public TimeSpan Interval { get; }
+
+        public long LastArrival { get; private set; }
+
+        /// <returns>False when the point is older than the interval being filled.</returns>
+        public bool Add(long timestampMs, ReadOnlySpan<double> values, long arrival, ITimeSeriesSink sink)
+        {
+            var bucket = Math.DivRem(timestampMs, _intervalMs, out var rem) - (rem < 0 ? 1 : 0);
+            lock (_lock)
+            {
+                if (bucket < _bucket)
+                {
+                    return false;
+                }
+
+                if (bucket > _bucket)
+                {
+                    EmitLocked(sink);
+                    Reset(bucket);
+                }
+
+                for (var i = 0; i < values.Length; i++)
+                {
+                    var v = values[i];
+                    if (!double.IsFinite(v))
+                    {
+                        continue;
+                    }
+
+                    _sum[i] += v;
+                    _count[i]++;
+                    _min[i] = Math.Min(_min[i], v);
+                    _max[i] = Math.Max(_max[i], v);
+                    _last[i] = v;
+                }
+
+                _dirty = true;
+                LastArrival = arrival;
+                return true;
+            }
+        }
+
+        public void EmitIfDirty(ITimeSeriesSink sink)
+        {
+            lock (_lock)
+            {
+                EmitLocked(sink);
+            }
+        }
+
+        private void EmitLocked(ITimeSeriesSink sink)
+        {
+            if (!_dirty)
+            {
+                return;
+            }
+
+            Span<double> output = stackalloc double[_output.FieldNames.Count];
+            for (var i = 0; i < _aggregates.Length; i++)
+            {
+                output[i] = _count[i] == 0 ? double.NaN : _aggregates[i] switch
+                {
+                    DownsampleAggregate.Mean => _sum[i] / _count[i],
+                    DownsampleAggregate.Min => _min[i],
+                    DownsampleAggregate.Max => _max[i],
+                    _ => _last[i],
+                };
+            }
+
+            var k = _aggregates.Length;
+            foreach (var i in _minMaxInputs)
+            {
+                output[k++] = _count[i] == 0 ? double.NaN : _min[i];
+                output[k++] = _count[i] == 0 ? double.NaN : _max[i];
+            }
+
+            sink.Write(_output, _bucket * _intervalMs, output);
+            _dirty = false;
+        }
+
+        private void Reset(long bucket)
+        {
+            _bucket = bucket;
+            Array.Clear(_sum);
+            Array.Clear(_count);
+            Array.Fill(_min, double.PositiveInfinity);
+            Array.Fill(_max, double.NegativeInfinity);
+            Array.Fill(_last, double.NaN);
+            _dirty = false;
+        }
+    }
+}

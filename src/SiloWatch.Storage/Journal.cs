@@ -1,0 +1,290 @@
+using System.Globalization;
+using Microsoft.Data.Sqlite;
+using Microsoft.Extensions.Logging;
+using Microsoft.Extensions.Logging.Abstractions;
+
+namespace SiloWatch.Storage;
+
+/// <summary>
+/// The plant's record: alarm transitions, discharge events, calibrations, tares, and snapshots
+/// that let a restart resume where it stopped. One SQLite file in WAL mode; the schema is
+/// versioned with PRAGMA user_version and migrated forward on open (a newer file is refused).
+/// Calls are synchronous and take a few milliseconds (one transaction each); they are safe from
+/// several threads. Keep them off the per-sample path: they are made for state changes.
+/// </summary>
+public sealed partial class Journal : IDisposable
+{
+    private readonly Lock _lock = new();
+    private readonly SqliteConnection _connection;
+    private readonly TimeProvider _timeProvider;
+    private bool _disposed;
+
+    public Journal(string path, TimeProvider timeProvider, ILogger<Journal>? logger = null)
+    {
+        ArgumentException.ThrowIfNullOrWhiteSpace(path);
+        ArgumentNullException.ThrowIfNull(timeProvider);
+        _timeProvider = timeProvider;
+        var log = (ILogger?)logger ?? NullLogger.Instance;
+        Path = System.IO.Path.GetFullPath(path);
+        Directory.CreateDirectory(System.IO.Path.GetDirectoryName(Path)!);
+        _connection = new SqliteConnection(new SqliteConnectionStringBuilder { DataSource = Path, Pooling = false }.ToString());
+        _connection.Open();
+        try
+        {
+            Execute("PRAGMA journal_mode=WAL; PRAGMA synchronous=NORMAL; PRAGMA busy_timeout=5000; PRAGMA foreign_keys=ON;");
+            var from = UserVersion();
+            Migrate(from);
+            if (from != SchemaVersion)
+            {
+                LogMigrated(log, Path, from, SchemaVersion);
+            }
+        }
+        catch
+        {
+            _connection.Dispose();
+            throw;
+        }
+    }
+
+    /// <summary>The schema version this program writes.</summary>
+    public static int SchemaVersion => JournalSchema.CurrentVersion;
+
+    public string Path { get; }
+
+    public long AppendAlarmTransition(AlarmTransitionRecord record)
+    {
+        ArgumentNullException.ThrowIfNull(record);
+        return Insert(
+            "INSERT INTO alarm_transitions(ts_ms, site, silo, alarm, from_state, to_state, priority, value, limit_value, message, user) VALUES($ts, $site, $silo, $alarm, $from, $to, $priority, $value, $limit, $message, $user)",
+            ("$ts", record.TimestampMs), ("$site", record.SiteId), ("$silo", record.SiloId), ("$alarm", record.AlarmId),
+            ("$from", record.FromState), ("$to", record.ToState), ("$priority", record.Priority), ("$value", Real(record.Value)),
+            ("$limit", Real(record.Limit)), ("$message", record.Message), ("$user", record.User));
+    }
+
+    /// <summary>Records a new event (in progress when EndedMs is null) and returns its id.</summary>
+    public long AppendEvent(DischargeEventRecord record)
+    {
+        ArgumentNullException.ThrowIfNull(record);
+        return Insert(
+            "INSERT INTO events(site, silo, started_ms, ended_ms, mass_at_start_kg, mass_out_kg, mean_rate_kg_s, peak_rate_kg_s, max_asymmetry_ratio, asymmetry_direction_deg, details_json) VALUES($site, $silo, $start, $end, $m0, $out, $mean, $peak, $asym, $dir, $details)",
+            EventParameters(record));
+    }
+
+    /// <summary>Rewrites an event by id (progress, or its end).</summary>
+    /// <exception cref="KeyNotFoundException">No event has that id.</exception>
+    public void UpdateEvent(DischargeEventRecord record)
+    {
+        ArgumentNullException.ThrowIfNull(record);
+        var changed = NonQuery(
+            "UPDATE events SET site=$site, silo=$silo, started_ms=$start, ended_ms=$end, mass_at_start_kg=$m0, mass_out_kg=$out, mean_rate_kg_s=$mean, peak_rate_kg_s=$peak, max_asymmetry_ratio=$asym, asymmetry_direction_deg=$dir, details_json=$details WHERE id=$id",
+            [.. EventParameters(record), ("$id", record.Id)]);
+        if (changed == 0)
+        {
+            throw new KeyNotFoundException($"no discharge event with id {record.Id}");
+        }
+    }
+
+    public DischargeEventRecord? GetEvent(long id) =>
+        Query(EventSelect + " WHERE id = $id", ReadEvent, ("$id", id)).FirstOrDefault();
+
+    /// <summary>The latest event of a silo still in progress, if any.</summary>
+    public DischargeEventRecord? FindOpenEvent(string siteId, string siloId) =>
+        Query(EventSelect + " WHERE site = $site AND silo = $silo AND ended_ms IS NULL ORDER BY started_ms DESC LIMIT 1", ReadEvent, ("$site", siteId), ("$silo", siloId))
+            .FirstOrDefault();
+
+    /// <summary>Events overlapping [fromMs, toMs), oldest first; site and silo null match all.</summary>
+    public IReadOnlyList<DischargeEventRecord> QueryEvents(string? siteId, string? siloId, long fromMs, long toMs, int limit = 10_000) =>
+        Query(
+            EventSelect + " WHERE ($site IS NULL OR site = $site) AND ($silo IS NULL OR silo = $silo) AND started_ms < $to AND (ended_ms IS NULL OR ended_ms >= $from) ORDER BY started_ms, id LIMIT $limit",
+            ReadEvent, ("$site", siteId), ("$silo", siloId), ("$from", fromMs), ("$to", toMs), ("$limit", limit));
+
+    /// <summary>Alarm transitions in [fromMs, toMs), oldest first; site and silo null match all.</summary>
+    public IReadOnlyList<AlarmTransitionRecord> QueryAlarmHistory(string? siteId, string? siloId, long fromMs, long toMs, int limit = 100_000) =>
+        Query(
+            "SELECT ts_ms, site, silo, alarm, from_state, to_state, priority, value, limit_value, message, user FROM alarm_transitions WHERE ($site IS NULL OR site = $site) AND ($silo IS NULL OR silo = $silo) AND ts_ms >= $from AND ts_ms < $to ORDER BY ts_ms, id LIMIT $limit",
+            r => new AlarmTransitionRecord(r.GetInt64(0), r.GetString(1), r.GetString(2), r.GetString(3), r.GetString(4), r.GetString(5), r.GetInt32(6),
+                NullableReal(r, 7), NullableReal(r, 8), r.GetString(9), r.IsDBNull(10) ? null : r.GetString(10)),
+            ("$site", siteId), ("$silo", siloId), ("$from", fromMs), ("$to", toMs), ("$limit", limit));
+
+    public long AppendCalibration(CalibrationRecord record)
+    {
+        ArgumentNullException.ThrowIfNull(record);
+        return Insert(
+            "INSERT INTO calibrations(ts_ms, site, silo, sensor, parameter, old_value, new_value, method, user, note) VALUES($ts, $site, $silo, $sensor, $param, $old, $new, $method, $user, $note)",
+            ("$ts", record.TimestampMs), ("$site", record.SiteId), ("$silo", record.SiloId), ("$sensor", record.SensorId), ("$param", record.Parameter),
+            ("$old", Real(record.OldValue)), ("$new", Real(record.NewValue)), ("$method", record.Method), ("$user", record.User), ("$note", record.Note));
+    }
+
+    public IReadOnlyList<CalibrationRecord> QueryCalibrations(string? siteId, string? siloId, long fromMs, long toMs) =>
+        Query(
+            "SELECT ts_ms, site, silo, sensor, parameter, old_value, new_value, method, user, note FROM calibrations WHERE ($site IS NULL OR site = $site) AND ($silo IS NULL OR silo = $silo) AND ts_ms >= $from AND ts_ms < $to ORDER BY ts_ms, id",
+            r => new CalibrationRecord(r.GetInt64(0), r.GetString(1), r.GetString(2), r.GetString(3), r.GetString(4), NullableReal(r, 5), NullableReal(r, 6),
+                r.GetString(7), r.IsDBNull(8) ? null : r.GetString(8), r.IsDBNull(9) ? null : r.GetString(9)),
+            ("$site", siteId), ("$silo", siloId), ("$from", fromMs), ("$to", toMs));
+
+    public long AppendTare(TareRecord record)
+    {
+        ArgumentNullException.ThrowIfNull(record);
+        return Insert(
+            "INSERT INTO tares(ts_ms, site, silo, tare_kg, previous_tare_kg, user, reason) VALUES($ts, $site, $silo, $tare, $prev, $user, $reason)",
+            ("$ts", record.TimestampMs), ("$site", record.SiteId), ("$silo", record.SiloId), ("$tare", record.TareKg), ("$prev", record.PreviousTareKg),
+            ("$user", record.User), ("$reason", record.Reason));
+    }
+
+    public IReadOnlyList<TareRecord> QueryTares(string? siteId, string? siloId, long fromMs, long toMs) =>
+        Query(
+            "SELECT ts_ms, site, silo, tare_kg, previous_tare_kg, user, reason FROM tares WHERE ($site IS NULL OR site = $site) AND ($silo IS NULL OR silo = $silo) AND ts_ms >= $from AND ts_ms < $to ORDER BY ts_ms, id",
+            r => new TareRecord(r.GetInt64(0), r.GetString(1), r.GetString(2), r.GetDouble(3), r.GetDouble(4), r.IsDBNull(5) ? null : r.GetString(5), r.IsDBNull(6) ? null : r.GetString(6)),
+            ("$site", siteId), ("$silo", siloId), ("$from", fromMs), ("$to", toMs));
+
+    /// <summary>Saves (replaces) the snapshot of one kind for a silo ("site/silo").</summary>
+    public void SaveSnapshot(string siloKey, string kind, string json)
+    {
+        ArgumentException.ThrowIfNullOrEmpty(siloKey);
+        ArgumentException.ThrowIfNullOrEmpty(kind);
+        ArgumentNullException.ThrowIfNull(json);
+        NonQuery(
+            "INSERT INTO snapshots(silo_key, kind, json, updated_ms) VALUES($key, $kind, $json, $ts) ON CONFLICT(silo_key, kind) DO UPDATE SET json = excluded.json, updated_ms = excluded.updated_ms",
+            [("$key", siloKey), ("$kind", kind), ("$json", json), ("$ts", _timeProvider.GetUtcNow().ToUnixTimeMilliseconds())]);
+    }
+
+    /// <summary>The JSON saved last for this silo and kind, or null.</summary>
+    public string? LoadSnapshot(string siloKey, string kind) =>
+        Query("SELECT json FROM snapshots WHERE silo_key = $key AND kind = $kind", r => r.GetString(0), ("$key", siloKey), ("$kind", kind)).FirstOrDefault();
+
+    /// <summary>Every snapshot of one kind, for resuming all silos at start-up.</summary>
+    public IReadOnlyList<SnapshotRecord> LoadSnapshots(string kind) =>
+        Query("SELECT silo_key, kind, json, updated_ms FROM snapshots WHERE kind = $kind ORDER BY silo_key",
+            r => new SnapshotRecord(r.GetString(0), r.GetString(1), r.GetString(2), r.GetInt64(3)), ("$kind", kind));
+
+    public bool DeleteSnapshot(string siloKey, string kind) =>
+        NonQuery("DELETE FROM snapshots WHERE silo_key = $key AND kind = $kind", [("$key", siloKey), ("$kind", kind)]) > 0;
+
+    public void Dispose()
+    {
+        lock (_lock)
+        {
+            if (!_disposed)
+            {
+                _disposed = true;
+                _connection.Dispose();
+            }
+        }
+    }
+
+    private const string EventSelect =
+        "SELECT id, site, silo, started_ms, ended_ms, mass_at_start_kg, mass_out_kg, mean_rate_kg_s, peak_rate_kg_s, max_asymmetry_ratio, asymmetry_direction_deg, details_json FROM events";
+
+    private static DischargeEventRecord ReadEvent(SqliteDataReader r) => new()
+    {
+        Id = r.GetInt64(0),
+        SiteId = r.GetString(1),
+        SiloId = r.GetString(2),
+        StartedMs = r.GetInt64(3),
+        EndedMs = r.IsDBNull(4) ? null : r.GetInt64(4),
+        MassAtStartKg = r.GetDouble(5),
+        MassOutKg = r.GetDouble(6),
+        MeanRateKgPerS = r.GetDouble(7),
+        PeakRateKgPerS = r.GetDouble(8),
+        MaxAsymmetryRatio = r.GetDouble(9),
+        AsymmetryDirectionDeg = r.GetDouble(10),
+        DetailsJson = r.GetString(11),
+    };
+
+    private static (string, object?)[] EventParameters(DischargeEventRecord e) =>
+    [
+        ("$site", e.SiteId), ("$silo", e.SiloId), ("$start", e.StartedMs), ("$end", e.EndedMs), ("$m0", e.MassAtStartKg), ("$out", e.MassOutKg),
+        ("$mean", e.MeanRateKgPerS), ("$peak", e.PeakRateKgPerS), ("$asym", e.MaxAsymmetryRatio), ("$dir", e.AsymmetryDirectionDeg), ("$details", e.DetailsJson),
+    ];
+
+    // SQLite has no NaN: a missing number is stored as NULL and read back as NaN.
+    private static object? Real(double v) => double.IsNaN(v) ? null : v;
+
+    private static double NullableReal(SqliteDataReader r, int i) => r.IsDBNull(i) ? double.NaN : r.GetDouble(i);
+
+    private void Migrate(int from)
+    {
+        if (from > SchemaVersion)
+        {
+            throw new InvalidOperationException(
+                $"journal {Path}: schema version {from} is newer than this program's ({SchemaVersion}); use a newer SiloWatch or another file");
+        }
+
+        for (var v = from; v < SchemaVersion; v++)
+        {
+            // Each step and its version bump in one transaction: a crash leaves the old version intact.
+            using var tx = _connection.BeginTransaction();
+            using var command = _connection.CreateCommand();
+            command.Transaction = tx;
+            command.CommandText = JournalSchema.Migrations[v] + string.Create(CultureInfo.InvariantCulture, $"\nPRAGMA user_version = {v + 1};");
+            command.ExecuteNonQuery();
+            tx.Commit();
+        }
+    }
+
+    private int UserVersion()
+    {
+        using var command = _connection.CreateCommand();
+        command.CommandText = "PRAGMA user_version";
+        return Convert.ToInt32(command.ExecuteScalar(), CultureInfo.InvariantCulture);
+    }
+
+    private void Execute(string sql)
+    {
+        using var command = _connection.CreateCommand();
+        command.CommandText = sql;
+        command.ExecuteNonQuery();
+    }
+
+    private long Insert(string sql, params (string Name, object? Value)[] parameters)
+    {
+        lock (_lock)
+        {
+            ObjectDisposedException.ThrowIf(_disposed, this);
+            using var command = Command(sql + " RETURNING id", parameters);
+            return (long)command.ExecuteScalar()!;
+        }
+    }
+
+    private int NonQuery(string sql, (string Name, object? Value)[] parameters)
+    {
+        lock (_lock)
+        {
+            ObjectDisposedException.ThrowIf(_disposed, this);
+            using var command = Command(sql, parameters);
+            return command.ExecuteNonQuery();
+        }
+    }
+
+    private List<T> Query<T>(string sql, Func<SqliteDataReader, T> read, params (string Name, object? Value)[] parameters)
+    {
+        lock (_lock)
+        {
+            ObjectDisposedException.ThrowIf(_disposed, this);
+            using var command = Command(sql, parameters);
+            using var reader = command.ExecuteReader();
+            var result = new List<T>();
+            while (reader.Read())
+            {
+                result.Add(read(reader));
+            }
+
+            return result;
+        }
+    }
+
+    private SqliteCommand Command(string sql, (string Name, object? Value)[] parameters)
+    {
+        var command = _connection.CreateCommand();
+        command.CommandText = sql;
+        foreach (var (name, value) in parameters)
+        {
+            command.Parameters.AddWithValue(name, value ?? DBNull.Value);
+        }
+
+        return command;
+    }
+
+    [LoggerMessage(Level = LogLevel.Information, Message = "Journal {Path}: schema migrated from version {From} to {To}")]
+    private static partial void LogMigrated(ILogger logger, string path, int from, int to);
+}
