@@ -4,6 +4,7 @@ using SiloWatch.Cli;
 var root = new RootCommand("silowatch: tools for the SiloWatch silo monitoring service")
 {
     VerifyCommand.Create(),
+    ProfileCommand.Create(),
 };
 
 return await root.Parse(args).InvokeAsync();
