@@ -1,1 +1,1 @@
-Console.WriteLine("simulator");
+return await SiloWatch.Simulator.Cli.SimulatorCommandLine.RunAsync(args, Console.Out, Console.Error);
