@@ -827,8 +827,8 @@ public sealed class SiloMonitor
 
     private double CellSystematicVarKn2(SensorOptions cell, double netKn)
     {
-        // Combined error as a rectangular bound (standard uncertainty = bound/√3, GUM [M]); span error on the net load.
-        var combined = _options.LoadCellCombinedErrorPctRo / 100.0 * cell.CapacityKn / Math.Sqrt(3);
+        // Combined error as a rectangular bound (bound/√3); the cells' parts add in quadrature over the scan. Span error on the net load.
+        var combined = LoadCellErrorBudget.CellStandardUncertaintyKn(_options.LoadCellCombinedErrorPctRo, cell.CapacityKn);
         var span = _options.LoadCellSpanUncertaintyPct / 100.0 * netKn;
         return (combined * combined) + (span * span);
     }
