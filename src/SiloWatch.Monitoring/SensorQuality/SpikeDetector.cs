@@ -8,12 +8,14 @@ namespace SiloWatch.Monitoring;
 public sealed class SpikeDetector
 {
     private const double MadToSigma = 1.4826;
+    private const double LongAlpha = 0.01;
     private readonly double[] _window;
     private readonly double[] _scratch;
     private readonly double _threshold;
     private readonly double _sigmaFloor;
     private int _count;
     private int _next;
+    private double _longVar = double.NaN;
 
     /// <param name="windowSize">Values the median and MAD are taken over (at least 5).</param>
     /// <param name="threshold">Robust z above which a value is a spike.</param>
@@ -47,9 +49,18 @@ public sealed class SpikeDetector
             }
 
             s.Sort();
-            var sigma = Math.Max(MadToSigma * Median(s), _sigmaFloor);
-            LastZ = Math.Abs(value - median) / sigma;
+            // A MAD over a short window is itself noisy (now and then half the true σ), so the scale is also
+            // floored at a slow estimate of the spread about the median; spikes are kept out of that estimate.
+            var madSigma = MadToSigma * Median(s);
+            var sigma = Math.Max(Math.Max(madSigma, _sigmaFloor), double.IsNaN(_longVar) ? 0 : 0.8 * Math.Sqrt(_longVar));
+            var deviation = value - median;
+            LastZ = Math.Abs(deviation) / sigma;
             spike = LastZ > _threshold;
+            if (!spike)
+            {
+                var d2 = deviation * deviation;
+                _longVar = double.IsNaN(_longVar) ? madSigma * madSigma : _longVar + (LongAlpha * (d2 - _longVar));
+            }
         }
 
         _window[_next] = value;
@@ -67,6 +78,7 @@ public sealed class SpikeDetector
         _count = 0;
         _next = 0;
         LastZ = 0;
+        _longVar = double.NaN;
     }
 
     private static double Median(Span<double> sorted) =>

@@ -27,6 +27,9 @@ public sealed class SignalSource(SiloRef silo, SiloModel model, int seed = 1)
     /// <summary>Extra signal added to one sensor (by id), mV/V: drift or offset faults.</summary>
     public Dictionary<string, double> OffsetMvPerV { get; } = new(StringComparer.Ordinal);
 
+    /// <summary>Sensors frozen at a value (mV/V or degC): a stuck converter or gateway.</summary>
+    public Dictionary<string, double> Frozen { get; } = new(StringComparer.Ordinal);
+
     /// <summary>Sensors that send nothing.</summary>
     public HashSet<string> Silent { get; } = new(StringComparer.Ordinal);
 
@@ -64,6 +67,13 @@ public sealed class SignalSource(SiloRef silo, SiloModel model, int seed = 1)
                 case SensorKind.AxialStrain or SensorKind.HoopStrain:
                     var gauge = model.Gauges.First(g => g.SensorIndex == s.Index);
                     var micro = double.IsNaN(_strains[gauge.Index]) ? 0 : _strains[gauge.Index];
+                    if (o.Kind == SensorKind.AxialStrain && EccentricityM != 0)
+                    {
+                        // Thin shell under N and M = N·e: n(θ) = n0·[1 + 2(e/r)·cos(θ − θ_e)] [D].
+                        var r = 0.5 * silo.Options.Geometry.DiameterM;
+                        micro *= 1 + (2 * EccentricityM / r * Math.Cos((o.AngleDeg - EccentricityAzimuthDeg) * Math.PI / 180));
+                    }
+
                     micro += o.ThermalOutputMicroPerK * (TemperatureC - o.ReferenceTemperatureC);
                     value = BridgeEquations.MvPerVFromStrainMicro(o.Bridge, micro, o.GaugeFactor, silo.Options.Geometry.WallPoissonRatio);
                     break;
@@ -73,6 +83,11 @@ public sealed class SignalSource(SiloRef silo, SiloModel model, int seed = 1)
             }
 
             value += NoiseMvPerV * Gaussian();
+            if (Frozen.TryGetValue(s.Id, out var frozen))
+            {
+                value = frozen;
+            }
+
             if (OffsetMvPerV.TryGetValue(s.Id, out var offset))
             {
                 value += offset;
