@@ -62,6 +62,7 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
     private bool _subscribedSinceStart;
     private long _connects;
     private int _started;
+    private int _stopping;
     private int _disposed;
 
     public SupervisedMqttClient(MqttOptions options, string instanceId, IReadOnlyList<string> subscriptions,
@@ -128,7 +129,7 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
     /// <summary>Stops the supervisor, publishes the retained "offline" status and disconnects cleanly (the session stays on the broker).</summary>
     public async Task StopAsync(CancellationToken ct)
     {
-        if (_loopCts is null)
+        if (_loopCts is null || Interlocked.Exchange(ref _stopping, 1) != 0)
         {
             return;
         }
@@ -221,6 +222,7 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
     internal async Task AbandonAsync()
     {
         Interlocked.Exchange(ref _disposed, 1);
+        Interlocked.Exchange(ref _stopping, 1);
         await StopLoopAsync().ConfigureAwait(false);
         _client.Dispose();
     }
@@ -618,13 +620,21 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
 
     private Task OnDisconnectedAsync(MqttClientDisconnectedEventArgs e)
     {
-        if (e.ClientWasConnected)
+        // MQTTnet also raises this for a failed connect attempt: that must not cut the backoff short.
+        if (!e.ClientWasConnected)
         {
-            Interlocked.Exchange(ref _connected, NewSignal());
-            LogDisconnected(_logger, _host, _options.Port, e.Reason, e.Exception?.Message ?? e.ReasonString ?? "");
+            return Task.CompletedTask;
         }
 
-        // Never reconnect from inside this handler: wake the supervisor instead.
+        Interlocked.Exchange(ref _connected, NewSignal());
+        if (Volatile.Read(ref _stopping) != 0)
+        {
+            return Task.CompletedTask;
+        }
+
+        LogDisconnected(_logger, _host, _options.Port, e.Reason, e.Exception?.Message ?? e.ReasonString ?? "");
+
+        // Never reconnect from inside this handler: wake the supervisor, which reconnects at once.
         Volatile.Read(ref _wake).TrySetResult();
         return Task.CompletedTask;
     }

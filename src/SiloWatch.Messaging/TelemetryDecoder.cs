@@ -306,8 +306,8 @@ public sealed class TelemetryDecoder
             slot.HasValue = true;
             if (reader.TokenType == JsonTokenType.Number)
             {
-                // TryGetDouble refuses numbers that overflow to infinity (1e400).
-                slot.ValueFlaw = reader.TryGetDouble(out slot.Value) ? Flaw.None : Flaw.ValueNotFinite;
+                // A number such as 1e400 overflows to infinity: some runtimes refuse it, others return it.
+                slot.ValueFlaw = reader.TryGetDouble(out slot.Value) && double.IsFinite(slot.Value) ? Flaw.None : Flaw.ValueNotFinite;
             }
             else if (reader.TokenType == JsonTokenType.String)
             {
