@@ -1,0 +1,98 @@
+using SiloWatch.Mechanics;
+using SiloWatch.Monitoring.Tests.Support;
+
+namespace SiloWatch.Monitoring.Tests;
+
+/// <summary>Cement silo C1: floor and hopper on three cells, walls founded separately, an axial ring near the base.</summary>
+public sealed class FloorWeighingTests
+{
+    private static (SiloMonitor Monitor, SignalSource Source, SiloModel Model, long T) Tared(bool ringSilent)
+    {
+        var (monitor, time, silo, model) = DemoPlant.Monitor("C1");
+        var source = new SignalSource(silo, model);
+        if (ringSilent)
+        {
+            foreach (var s in silo.Sensors.Where(s => s.Options.Kind == Plant.SensorKind.AxialStrain))
+            {
+                source.Silent.Add(s.Id);
+            }
+        }
+
+        var t = source.Run(monitor, time.GetUtcNow().ToUnixTimeMilliseconds(), 20, _ => 0);
+        monitor.Tare("commissioning", t);
+        return (monitor, source, model, t);
+    }
+
+    [Fact]
+    public void TheFloorLoadInvertedThroughTheMechanicsModelGivesBackTheMass()
+    {
+        // Round trip against the mechanics library: its expected floor load for a fill, inverted by the monitor.
+        var (monitor, source, model, t) = Tared(ringSilent: true);
+        var mass = 0.5 * model.CapacityKg;
+
+        t = source.Run(monitor, t + 1000, 60, _ => mass);
+        var e = monitor.Evaluate(t);
+
+        Assert.Equal("floor-janssen", e.Method);
+        Assert.True(Math.Abs(e.MassKg - mass) < 0.01 * model.CapacityKg, $"error {e.MassKg - mass:0} kg");
+        Assert.InRange(mass, e.MassLow95Kg, e.MassHigh95Kg);
+        Assert.Contains("wall ring unavailable", e.QualityReason, StringComparison.Ordinal);
+    }
+
+    [Fact]
+    public void NearSaturationTheFloorLoadSaysLittleAndTheIntervalShowsIt()
+    {
+        var (monitor, source, model, t) = Tared(ringSilent: true);
+
+        t = source.Run(monitor, t + 1000, 60, _ => 0.3 * model.CapacityKg);
+        var low = monitor.Evaluate(t);
+        t = source.Run(monitor, t + 1000, 60, _ => 0.9 * model.CapacityKg);
+        var high = monitor.Evaluate(t);
+
+        var relLow = (low.MassHigh95Kg - low.MassLow95Kg) / low.MassKg;
+        var relHigh = (high.MassHigh95Kg - high.MassLow95Kg) / high.MassKg;
+        Assert.True(relHigh > 2 * relLow, $"relative 95 % width {relLow:P1} at 30 %, {relHigh:P1} at 90 %");
+        Assert.Contains("poorly conditioned", high.QualityReason, StringComparison.Ordinal);
+        Assert.NotEqual(Quality.Good, high.Quality);
+    }
+
+    [Fact]
+    public void AFloorLoadAboveSaturationHasNoSolutionAndIsBad()
+    {
+        var (monitor, source, model, t) = Tared(ringSilent: true);
+        t = source.Run(monitor, t + 1000, 30, _ => 0.5 * model.CapacityKg);
+        var saturationKn = model.InvertFloorLoad(1).SaturationLoadKn;
+
+        // Each cell raised so that the floor load passes A·γ·z0 + hopper by 5 % (a wrong K·μ or a cell fault would look so).
+        var floorKn = model.Expect(model.StateAtMass(0.5 * model.CapacityKg)).FloorLoadKn;
+        foreach (var id in new[] { "LC1", "LC2", "LC3" })
+        {
+            source.OffsetMvPerV[id] = ((1.05 * saturationKn) - floorKn) / 3 / 1000; // 1 mV/V is 1000 kN on these cells
+        }
+
+        t = source.Run(monitor, t + 1000, 30, _ => 0.5 * model.CapacityKg);
+        var e = monitor.Evaluate(t);
+
+        Assert.Equal(InversionStatus.AboveSaturation, model.InvertFloorLoad(1.05 * saturationKn).Status);
+        Assert.Equal(Quality.Bad, e.Quality);
+        Assert.Contains("no solution", e.QualityReason, StringComparison.Ordinal);
+    }
+
+    [Fact]
+    public void WithTheWallRingTheTotalIsFloorPlusWallAndTheIntervalIsNarrow()
+    {
+        var (monitor, source, model, t) = Tared(ringSilent: false);
+        var mass = 0.8 * model.CapacityKg;
+
+        t = source.Run(monitor, t + 1000, 60, _ => mass);
+        var e = monitor.Evaluate(t);
+
+        Assert.Equal("floor+wall-rings", e.Method);
+        Assert.True(Math.Abs(e.MassKg - mass) < 0.01 * model.CapacityKg, $"error {e.MassKg - mass:0} kg of {mass:0}, {e.QualityReason}");
+        Assert.InRange(mass, e.MassLow95Kg, e.MassHigh95Kg);
+        var (floorOnly, floorSource, _, t2) = Tared(ringSilent: true);
+        t2 = floorSource.Run(floorOnly, t2 + 1000, 60, _ => mass);
+        var f = floorOnly.Evaluate(t2);
+        Assert.True(e.MassHigh95Kg - e.MassLow95Kg < 0.5 * (f.MassHigh95Kg - f.MassLow95Kg), "the ring must tighten the interval");
+    }
+}
