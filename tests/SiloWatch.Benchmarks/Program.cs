@@ -1,5 +1,11 @@
 using BenchmarkDotNet.Running;
+using SiloWatch.Benchmarks;
 
-// Every benchmark of the project; pick with --filter, e.g. --filter '*Decode*'.
-// Load drivers that print figures of their own are separate commands: see DEVELOPERS.md.
-BenchmarkSwitcher.FromAssembly(typeof(Program).Assembly).Run(args);
+// Load drivers print figures of their own; everything else is BenchmarkDotNet (pick with --filter).
+if (args.Length > 0 && args[0] == "ingest-load")
+{
+    return await IngestLoadDriver.RunAsync(args[1..]);
+}
+
+BenchmarkSwitcher.FromAssembly(typeof(IngestLoadDriver).Assembly).Run(args);
+return 0;

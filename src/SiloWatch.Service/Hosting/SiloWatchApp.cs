@@ -1,0 +1,37 @@
+using Serilog;
+using SiloWatch.Service.Health;
+
+namespace SiloWatch.Service.Hosting;
+
+/// <summary>Builds the SiloWatch host: Program.cs and the integration tests use the same wiring.</summary>
+public static class SiloWatchApp
+{
+    public const string ConfigFile = "config/appsettings.json";
+
+    public static WebApplication Build(string[] args, Action<WebApplicationBuilder>? configure = null)
+    {
+        var builder = WebApplication.CreateBuilder(new WebApplicationOptions { Args = args, ContentRootPath = Directory.GetCurrentDirectory() });
+
+        // config/appsettings.json, then SILOWATCH_* environment variables (e.g. SILOWATCH_Mqtt__Host), then the command line.
+        builder.Configuration.AddJsonFile(builder.Environment.ResolvePath(ConfigFile), optional: true, reloadOnChange: false);
+        builder.Configuration.AddEnvironmentVariables("SILOWATCH_");
+        builder.Configuration.AddCommandLine(args);
+        configure?.Invoke(builder);
+
+        builder.Services.AddSerilog((sp, cfg) => cfg
+            .ReadFrom.Configuration(builder.Configuration)
+            .ReadFrom.Services(sp)
+            .Enrich.FromLogContext());
+
+        builder.WebHost.UseUrls(builder.Configuration["Health:Urls"] ?? "http://127.0.0.1:8077");
+        builder.Services.Configure<HostOptions>(o => o.ShutdownTimeout = TimeSpan.FromSeconds(20));
+
+        builder.AddSiloWatchPlant();
+        builder.AddSiloWatchIngest();
+        builder.AddSiloWatchDemo();
+
+        var app = builder.Build();
+        app.MapSiloWatchHealth();
+        return app;
+    }
+}

@@ -1,0 +1,74 @@
+using MQTTnet.Protocol;
+using SiloWatch.Messaging;
+using SiloWatch.Monitoring;
+using SiloWatch.Plant;
+
+namespace SiloWatch.Service.Ingest;
+
+/// <summary>
+/// Everything one silo owns: its decoder (with the sequence state of its publishers), its monitor
+/// (conversion, quality, estimate) and its last estimate. Touched by one worker loop only.
+/// </summary>
+public sealed class SiloPipeline : ITelemetryReceiver
+{
+    private readonly TelemetryDecoder _decoder;
+    private readonly IngestCounters _counters;
+    private readonly OutboundQueue _outbound;
+    private readonly RateLimitedLog _rejectLog;
+    private readonly string _deadLetterTopic;
+    private readonly string _stateTopic;
+    private long _receivedMs;
+
+    public SiloPipeline(SiloRef silo, SiloMonitor monitor, TelemetryDecoderOptions decoderOptions, TopicScheme topics,
+        IngestCounters counters, OutboundQueue outbound, RateLimitedLog rejectLog)
+    {
+        Silo = silo;
+        Monitor = monitor;
+        _decoder = new TelemetryDecoder(silo, decoderOptions);
+        _counters = counters;
+        _outbound = outbound;
+        _rejectLog = rejectLog;
+        _deadLetterTopic = topics.DeadLetter(silo.SiteId, silo.SiloId);
+        _stateTopic = topics.State(silo.SiteId, silo.SiloId);
+    }
+
+    public SiloRef Silo { get; }
+
+    public SiloMonitor Monitor { get; }
+
+    public InventoryEstimate? LastEstimate { get; private set; }
+
+    public long SamplesAccepted { get; private set; }
+
+    public long SamplesRejected { get; private set; }
+
+    /// <summary>Decodes one telemetry message of this silo and feeds every good sample to the monitor.</summary>
+    public void Process(ReadOnlySpan<byte> payload, long receivedMs)
+    {
+        _receivedMs = receivedMs;
+        var outcome = _decoder.Decode(payload, receivedMs, this);
+        _counters.Sequence(outcome);
+        _counters.SamplesAccepted(outcome.Accepted);
+        SamplesAccepted += outcome.Accepted;
+        SamplesRejected += outcome.Rejected;
+    }
+
+    /// <summary>Evaluates the estimate and queues it for publishing (retained).</summary>
+    public InventoryEstimate Publish(long nowMs, string instanceId)
+    {
+        var estimate = Monitor.Evaluate(nowMs);
+        LastEstimate = estimate;
+        _outbound.Enqueue(new OutboundMessage(_stateTopic, StatePayload.Encode(estimate, instanceId), Retain: true, MqttQualityOfServiceLevel.AtLeastOnce));
+        return estimate;
+    }
+
+    void ITelemetryReceiver.OnSample(in TelemetrySample sample) => Monitor.OnSample(sample);
+
+    void ITelemetryReceiver.OnRejected(TelemetryRejection rejection)
+    {
+        _counters.Reject(rejection.Reason);
+        _rejectLog.Warn(ReasonNames.Kebab(rejection.Reason), rejection.SiteId, rejection.SiloId, rejection.SensorId, rejection.Detail);
+        _outbound.Enqueue(new OutboundMessage(_deadLetterTopic, DeadLetterCodec.Encode(rejection, _receivedMs), Retain: false, MqttQualityOfServiceLevel.AtLeastOnce));
+        _counters.DeadLetterQueued();
+    }
+}

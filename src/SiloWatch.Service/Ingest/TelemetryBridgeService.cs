@@ -1,0 +1,128 @@
+using Microsoft.Extensions.Options;
+using SiloWatch.Messaging;
+using SiloWatch.Service.Hosting;
+
+namespace SiloWatch.Service.Ingest;
+
+/// <summary>
+/// Connects the MQTT client to the ingest and the outbound queue. Stop order matters: take no more
+/// messages (the rest stay with the broker for the persistent session), drain the queues, publish
+/// the last states, then say offline and disconnect.
+/// </summary>
+public sealed class TelemetryBridgeService(
+    IOptions<MqttOptions> mqtt,
+    IOptions<InstanceOptions> instance,
+    BrokerEndpoint endpoint,
+    TelemetryIngest ingest,
+    OutboundQueue outbound,
+    IngestCounters counters,
+    TimeProvider time,
+    ILoggerFactory loggers) : IHostedService, IAsyncDisposable
+{
+    private readonly ILogger _logger = loggers.CreateLogger<TelemetryBridgeService>();
+    private readonly CancellationTokenSource _stopping = new();
+    private SupervisedMqttClient? _client;
+    private Task _publisher = Task.CompletedTask;
+
+    public SupervisedMqttClient? Client => _client;
+
+    public async Task StartAsync(CancellationToken cancellationToken)
+    {
+        var (host, port) = await endpoint.WhenReadyAsync(cancellationToken).ConfigureAwait(false);
+        var options = mqtt.Value;
+        // The embedded broker's port is only known now; the options instance is this service's own.
+        options.Host = host;
+        options.Port = port;
+        ingest.Start(_stopping.Token);
+        _client = new SupervisedMqttClient(options, instance.Value.Id, ingest.Subscriptions, ingest.OnMessageAsync,
+            loggers.CreateLogger<SupervisedMqttClient>(), time);
+        await _client.StartAsync(cancellationToken).ConfigureAwait(false);
+        _publisher = Task.Run(() => PublishLoopAsync(_client, _stopping.Token), CancellationToken.None);
+        _logger.LogInformation("Instance {Instance} owns {Silos} silo(s) over {Partitions} partition(s); broker {Host}:{Port}",
+            instance.Value.Id, ingest.Pipelines.Count(), ingest.Workers.Count, host, port);
+    }
+
+    public async Task StopAsync(CancellationToken cancellationToken)
+    {
+        try
+        {
+            await ingest.DrainAsync(cancellationToken).ConfigureAwait(false);
+        }
+        catch (OperationCanceledException)
+        {
+            _logger.LogWarning("Stop timed out while draining the ingest queues");
+        }
+
+        outbound.Complete();
+        try
+        {
+            await _publisher.WaitAsync(TimeSpan.FromSeconds(5), cancellationToken).ConfigureAwait(false);
+        }
+        catch (Exception ex) when (ex is TimeoutException or OperationCanceledException)
+        {
+            _logger.LogWarning("{Count} outbound message(s) not published before stop", outbound.Count);
+        }
+
+        await _stopping.CancelAsync().ConfigureAwait(false);
+        if (_client is not null)
+        {
+            await _client.StopAsync(cancellationToken).ConfigureAwait(false);
+        }
+    }
+
+    private async Task PublishLoopAsync(SupervisedMqttClient client, CancellationToken ct)
+    {
+        var reader = outbound.Reader;
+        OutboundMessage? pending = null;
+        try
+        {
+            while (true)
+            {
+                if (pending is null)
+                {
+                    if (!reader.TryRead(out pending))
+                    {
+                        if (!await reader.WaitToReadAsync(ct).ConfigureAwait(false))
+                        {
+                            return; // completed and drained
+                        }
+
+                        continue;
+                    }
+                }
+
+                if (!client.IsConnected)
+                {
+                    await Task.Delay(TimeSpan.FromMilliseconds(200), time, ct).ConfigureAwait(false);
+                    continue;
+                }
+
+                var message = pending;
+                try
+                {
+                    await client.PublishAsync(message.Topic, message.Payload, message.Retain, message.Qos, ct).ConfigureAwait(false);
+                    pending = null;
+                    counters.PublishedOne();
+                }
+                catch (Exception ex) when (ex is not OperationCanceledException)
+                {
+                    _logger.LogDebug(ex, "Publish to {Topic} failed; retrying", message.Topic);
+                    await Task.Delay(TimeSpan.FromMilliseconds(200), time, ct).ConfigureAwait(false);
+                }
+            }
+        }
+        catch (OperationCanceledException) when (ct.IsCancellationRequested)
+        {
+            // hard stop
+        }
+    }
+
+    public async ValueTask DisposeAsync()
+    {
+        _stopping.Dispose();
+        if (_client is not null)
+        {
+            await _client.DisposeAsync().ConfigureAwait(false);
+        }
+    }
+}

@@ -1,0 +1,157 @@
+using MQTTnet;
+using MQTTnet.Protocol;
+using SiloWatch.Messaging;
+using SiloWatch.Monitoring;
+using SiloWatch.Plant;
+using SiloWatch.Service.Hosting;
+
+namespace SiloWatch.Service.Ingest;
+
+/// <summary>
+/// Routes telemetry from the MQTT receive callback to per-silo pipelines, partitioned over a few
+/// worker loops by silo; the callback only copies the payload into a bounded queue.
+/// </summary>
+public sealed class TelemetryIngest
+{
+    private readonly PartitionWorker[] _workers;
+    private readonly Dictionary<string, SiloPipeline> _pipelinesByKey;
+    private readonly Dictionary<string, SiloPipeline>.AlternateLookup<ReadOnlySpan<char>> _pipelinesBySpan;
+    private readonly bool _ownsAll;
+    private readonly PlantRegistry _registry;
+    private readonly TopicScheme _topics;
+    private readonly IngestCounters _counters;
+    private readonly OutboundQueue _outbound;
+    private readonly InstanceOptions _options;
+    private readonly TimeProvider _time;
+    private readonly RateLimitedLog _rejectLog;
+    private readonly ILogger<TelemetryIngest> _logger;
+    private Task[] _running = [];
+    private volatile bool _accepting = true;
+
+    public TelemetryIngest(PlantRegistry registry, ShardMap shard, SiloModels models, MonitoringOptions monitoring,
+        TelemetryDecoderOptions decoderOptions, TopicScheme topics, IngestCounters counters, OutboundQueue outbound,
+        InstanceOptions options, TimeProvider time, ILogger<TelemetryIngest> logger)
+    {
+        _registry = registry;
+        _topics = topics;
+        _counters = counters;
+        _outbound = outbound;
+        _options = options;
+        _time = time;
+        _logger = logger;
+        _rejectLog = new RateLimitedLog(logger, time, TimeSpan.FromSeconds(10));
+        var partitions = options.Partitions > 0 ? options.Partitions : Environment.ProcessorCount;
+        partitions = Math.Max(1, Math.Min(partitions, Math.Max(1, shard.Owned.Count)));
+        _workers = [.. Enumerable.Range(0, partitions).Select(i =>
+            new PartitionWorker(i, options.QueueCapacity, time, options.PublishInterval, options.Id, logger))];
+        _pipelinesByKey = new Dictionary<string, SiloPipeline>(StringComparer.Ordinal);
+        foreach (var silo in shard.Owned)
+        {
+            var monitor = new SiloMonitor(silo, models.For(silo), monitoring, time);
+            var pipeline = new SiloPipeline(silo, monitor, decoderOptions, topics, counters, outbound, _rejectLog);
+            _pipelinesByKey[silo.Key] = pipeline;
+            _workers[ShardMap.ShardOf(silo.Key, partitions)].Add(pipeline);
+        }
+
+        _pipelinesBySpan = _pipelinesByKey.GetAlternateLookup<ReadOnlySpan<char>>();
+        _ownsAll = shard.Owned.Count == registry.Silos.Count && options.ShardCount == 1 && options.Silos.Count == 0;
+    }
+
+    public IReadOnlyList<PartitionWorker> Workers => _workers;
+
+    public IEnumerable<SiloPipeline> Pipelines => _workers.SelectMany(w => w.Pipelines);
+
+    /// <summary>
+    /// MQTT topic filters: one per owned silo when sharded; a single wildcard when this instance
+    /// owns the whole plant, so telemetry for silos the plant does not know is seen and dead-lettered too.
+    /// </summary>
+    public IReadOnlyList<string> Subscriptions => _ownsAll
+        ? [_topics.TelemetryFilterAll()]
+        : [.. _pipelinesByKey.Values.Select(p => _topics.TelemetryFilter(p.Silo.SiteId, p.Silo.SiloId))];
+
+    public void Start(CancellationToken stoppingToken) =>
+        _running = [.. _workers.Select(w => Task.Run(() => w.RunAsync(stoppingToken), CancellationToken.None))];
+
+    /// <summary>The MQTT receive callback: route by topic, copy, enqueue. Never throws.</summary>
+    public async Task OnMessageAsync(MqttApplicationMessageReceivedEventArgs e)
+    {
+        if (!_accepting)
+        {
+            // Stopping: leave the message unacknowledged so the broker delivers it again to the next session.
+            e.AutoAcknowledge = false;
+            return;
+        }
+
+        var topic = e.ApplicationMessage.Topic;
+        if (!_topics.TryGetTelemetrySiloKey(topic, out var siloKey))
+        {
+            if (topic.StartsWith(_topics.Prefix + "/" + TopicScheme.Version + "/telemetry/", StringComparison.Ordinal))
+            {
+                RejectTopic(topic, "telemetry topic levels are not valid site and silo ids");
+            }
+
+            return;
+        }
+
+        var receivedMs = _time.GetUtcNow().ToUnixTimeMilliseconds();
+        _counters.MessageReceived();
+        if (!_pipelinesBySpan.TryGetValue(siloKey, out var pipeline))
+        {
+            var known = _registry.TryGetSilo(siloKey, out _);
+            RejectTopic(topic, known ? "silo is not owned by this instance (shard)" : "no such site/silo in the plant definition");
+            return;
+        }
+
+        var message = IngestMessage.Copy(pipeline, e.ApplicationMessage.Payload, receivedMs);
+        var writer = _workers[ShardMap.ShardOf(pipeline.Silo.Key, _workers.Length)].Writer;
+        if (writer.TryWrite(message))
+        {
+            return;
+        }
+
+        if (_options.QueueFullMode == QueueFullMode.Drop)
+        {
+            _counters.QueueDroppedOne();
+            message.Release();
+            _rejectLog.Warn("queue-full", pipeline.Silo.SiteId, pipeline.Silo.SiloId, null, "partition queue full: message dropped");
+            return;
+        }
+
+        _counters.QueueFullWaited();
+        try
+        {
+            await writer.WriteAsync(message).ConfigureAwait(false);
+        }
+        catch (System.Threading.Channels.ChannelClosedException)
+        {
+            message.Release();
+            e.AutoAcknowledge = false;
+        }
+    }
+
+    private void RejectTopic(string topic, string detail)
+    {
+        _counters.Reject(RejectReason.UnknownSilo);
+        _topics.TryParseTelemetry(topic, out var site, out var silo);
+        site = site.Length > 0 ? site : "invalid-topic";
+        silo = silo.Length > 0 ? silo : "invalid-topic";
+        _rejectLog.Warn(ReasonNames.Kebab(RejectReason.UnknownSilo), site, silo, null, detail);
+        var rejection = new TelemetryRejection(RejectReason.UnknownSilo, detail, site, silo, null, null, null, topic.Length > 200 ? topic[..200] : topic);
+        _outbound.Enqueue(new OutboundMessage(_topics.DeadLetter(site, silo), DeadLetterCodec.Encode(rejection, _time.GetUtcNow().ToUnixTimeMilliseconds()),
+            false, MqttQualityOfServiceLevel.AtLeastOnce));
+    }
+
+    /// <summary>Stops taking messages, drains every queue and waits for the workers' last publish.</summary>
+    public async Task DrainAsync(CancellationToken cancellationToken)
+    {
+        _accepting = false;
+        foreach (var worker in _workers)
+        {
+            worker.Writer.TryComplete();
+        }
+
+        await Task.WhenAll(_running).WaitAsync(cancellationToken).ConfigureAwait(false);
+        _logger.LogInformation("Ingest drained: {Messages} messages, {Samples} samples accepted, {Rejected} rejected",
+            _counters.Messages, _counters.Samples, _counters.RejectedTotal);
+    }
+}

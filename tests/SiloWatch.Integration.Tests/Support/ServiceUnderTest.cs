@@ -1,0 +1,50 @@
+using Microsoft.AspNetCore.Builder;
+using Microsoft.Extensions.DependencyInjection;
+using SiloWatch.Service.Hosting;
+using SiloWatch.Service.Ingest;
+
+namespace SiloWatch.Integration.Tests.Support;
+
+/// <summary>The real SiloWatch host, in-process, pointed at a test broker; demo simulator off.</summary>
+public sealed class ServiceUnderTest : IAsyncDisposable
+{
+    private readonly WebApplication _app;
+
+    private ServiceUnderTest(WebApplication app) => _app = app;
+
+    public TelemetryIngest Ingest => _app.Services.GetRequiredService<TelemetryIngest>();
+
+    public IngestCounters Counters => _app.Services.GetRequiredService<IngestCounters>();
+
+    public TelemetryBridgeService Bridge => _app.Services.GetRequiredService<TelemetryBridgeService>();
+
+    public long Accepted(string siloKey) => Ingest.Pipelines.Where(p => p.Silo.Key == siloKey).Sum(p => p.SamplesAccepted);
+
+    public static async Task<ServiceUnderTest> StartAsync(int brokerPort, string instanceId = "it-0", params (string Key, string Value)[] settings)
+    {
+        var args = new List<string>
+        {
+            "--Mqtt:Host=127.0.0.1",
+            $"--Mqtt:Port={brokerPort}",
+            $"--Mqtt:ClientId=silowatch-{instanceId}",
+            $"--Instance:Id={instanceId}",
+            "--Instance:PublishInterval=00:00:00.200",
+            "--Instance:LogInterval=00:00:00",
+            $"--Instance:PlantFile={Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json")}",
+            $"--Instance:MaterialsFile={Path.Combine(AppContext.BaseDirectory, "config", "materials.json")}",
+            "--Demo:RunSimulator=false",
+            "--Health:Urls=http://127.0.0.1:0",
+            "--Serilog:MinimumLevel:Default=Warning",
+        };
+        args.AddRange(settings.Select(s => $"--{s.Key}={s.Value}"));
+        var app = SiloWatchApp.Build([.. args]);
+        await app.StartAsync();
+        var service = new ServiceUnderTest(app);
+        await TestMqtt.WaitForAsync(() => service.Bridge.Client?.IsConnected == true, "service connected to the broker");
+        return service;
+    }
+
+    public Task StopAsync() => _app.StopAsync();
+
+    public async ValueTask DisposeAsync() => await _app.DisposeAsync();
+}
