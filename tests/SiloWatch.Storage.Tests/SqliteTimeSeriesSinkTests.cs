@@ -1,0 +1,94 @@
+using Microsoft.Extensions.Time.Testing;
+using SiloWatch.Storage.Tests.Support;
+
+namespace SiloWatch.Storage.Tests;
+
+public sealed class SqliteTimeSeriesSinkTests : IDisposable
+{
+    private readonly TempDirectory _dir = new();
+    private readonly FakeTimeProvider _time = new(DateTimeOffset.Parse("2026-06-01T00:00:00Z", System.Globalization.CultureInfo.InvariantCulture));
+
+    public void Dispose() => _dir.Dispose();
+
+    // Near the fake clock: the store prunes anything older than its retention.
+    private long Base => _time.GetUtcNow().ToUnixTimeMilliseconds() - 3_600_000;
+
+    private SqliteTimeSeriesSink Open(int batchSize = 100, int capacity = 10_000) => new(
+        _dir.File("series.db"),
+        new TimeSeriesOptions { BatchSize = batchSize, BufferCapacityPoints = capacity, FlushInterval = TimeSpan.FromSeconds(1) },
+        TimeSpan.FromDays(30),
+        _time,
+        new TestLogger<SqliteTimeSeriesSink>());
+
+    [Fact]
+    public async Task WrittenPointsAreReadBackByMeasurementFieldTagsAndTime()
+    {
+        var s1 = Some.SensorSeries("sq", "S1");
+        var s2 = Some.SensorSeries("sq", "S2");
+        await using var sink = Open();
+        for (var i = 0; i < 1000; i++)
+        {
+            sink.Write(s1, Base + i, [i, i * 2.5, 0]);
+            sink.Write(s2, Base + i, [-i, -i * 2.5, 1]);
+        }
+
+        await sink.FlushAsync(CancellationToken.None);
+
+        var values = sink.Query(Measurements.Sensor, SensorFields.Value, [new(Tags.Silo, "S1")], Base + 100, Base + 200);
+        Assert.Equal(100, values.Count);
+        Assert.All(values, v => Assert.Equal((v.TimestampMs - Base) * 2.5, v.Value));
+        Assert.All(values, v => Assert.Equal(s1.EscapedTagSet, v.TagSet));
+        Assert.Equal(2000, sink.Query(Measurements.Sensor, SensorFields.Quality, null, 0, long.MaxValue).Count);
+        Assert.Equal(2000, sink.Health.WrittenPoints);
+    }
+
+    [Fact]
+    public async Task WritingTheSameSeriesAndTimestampAgainReplacesTheValue()
+    {
+        var s = new SeriesKey("m", [new("site", "a b")], "v", "w");
+        await using (var sink = Open())
+        {
+            sink.Write(s, Base + 5, [1, double.NaN]);
+            sink.Write(s, Base + 5, [2, double.NaN]);
+            await sink.FlushAsync(CancellationToken.None);
+        }
+
+        await using var reopened = Open();
+        var v = Assert.Single(reopened.Query("m", "v", [new("site", "a b")], Base, Base + 10));
+        Assert.Equal(2, v.Value);
+        Assert.Empty(reopened.Query("m", "w", null, Base, Base + 10)); // NaN is not stored
+    }
+
+    [Fact]
+    public async Task WhenTheBufferIsFullTheCallerWritesToTheFileAndNothingIsLost()
+    {
+        var s = new SeriesKey("m", [], "v");
+        await using var sink = Open(batchSize: 10, capacity: 10);
+        var writers = Enumerable.Range(0, 4).Select(t => Task.Run(() =>
+        {
+            for (var i = 0; i < 2500; i++)
+            {
+                sink.Write(s, Base + (t * 10_000) + i, [i]);
+            }
+        })).ToArray();
+        await Task.WhenAll(writers);
+        await sink.FlushAsync(CancellationToken.None);
+
+        Assert.Equal(10_000, sink.Query("m", "v", null, 0, long.MaxValue).Count);
+        Assert.Equal(10_000, sink.Health.WrittenPoints);
+        Assert.Equal(0, sink.Health.DiscardedPoints);
+    }
+
+    [Fact]
+    public async Task SamplesOlderThanTheRetentionArePruned()
+    {
+        var s = new SeriesKey("m", [], "v");
+        var now = _time.GetUtcNow().ToUnixTimeMilliseconds();
+        await using var sink = Open();
+        sink.Write(s, now - (long)TimeSpan.FromDays(40).TotalMilliseconds, [1]);
+        sink.Write(s, now - (long)TimeSpan.FromDays(10).TotalMilliseconds, [2]);
+        await sink.FlushAsync(CancellationToken.None);
+
+        Assert.Equal([2.0], sink.Query("m", "v", null, 0, long.MaxValue).Select(x => x.Value));
+    }
+}
