@@ -77,10 +77,10 @@ rc=$?
 read -r passed failed skipped < <(cat "$RESULTS"/*.trx 2>/dev/null | grep -o '<Counters [^>]*>' \
   | sed -E 's/.*total="([0-9]+)".*executed="([0-9]+)".*passed="([0-9]+)".*failed="([0-9]+)".*/\1 \2 \3 \4/' \
   | awk '{t+=$1; e+=$2; p+=$3; f+=$4} END {print p+0, f+0, t-e+0}')
-if [ "$rc" -ne 0 ] && [ "$failed" -eq 0 ]; then failed=1; fi
+if [ "$rc" -ne 0 ] && [ "$failed" -eq 0 ]; then failed=1; fi   # build error or crashed test host
 
 # The deployment files, checked by their own tools (systemd-analyze, mosquitto), count as one test.
-if "$ROOT/deploy/check.sh"; then passed=$((passed + 1)); else failed=$((failed + 1)); rc=1; fi   # build error or crashed test host
+if "$ROOT/deploy/check.sh"; then passed=$((passed + 1)); else failed=$((failed + 1)); rc=1; fi
 line="$passed passed, $failed failed"
 [ "$skipped" -gt 0 ] && line="$line, $skipped skipped"
 echo "$line"
