@@ -58,8 +58,14 @@ public static class MaterialReader
         var result = new Dictionary<string, MaterialProperties>(StringComparer.Ordinal);
         foreach (var row in list.EnumerateArray())
         {
-            var name = row.GetProperty("Name").GetString() ?? throw new InvalidDataException($"{sourceName}: a material without a Name");
-            var mu = row.GetProperty("WallFrictionMean");
+            var name = row.TryGetProperty("Name", out var n) && n.GetString() is { Length: > 0 } s
+                ? s
+                : throw new InvalidDataException($"{sourceName}: a material without a Name");
+            if (!row.TryGetProperty("WallFrictionMean", out var mu) || mu.ValueKind != JsonValueKind.Object)
+            {
+                throw new InvalidDataException($"{sourceName}: material '{name}' has no object 'WallFrictionMean' {{D1, D2, D3}}");
+            }
+
             result[name] = new MaterialProperties(
                 name,
                 Number(row, "UnitWeightLowerKnM3", name, sourceName),

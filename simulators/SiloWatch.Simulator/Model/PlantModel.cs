@@ -100,12 +100,12 @@ public sealed class PlantModel
 
     public IReadOnlyList<SiloSimulation> Silos => [.. _silos.Select(s => s.Silo)];
 
-    public bool Finished => !Loop && Elapsed > _scenario.Duration;
+    public bool Finished => !Loop && !_first && Elapsed >= _scenario.Duration;
 
     /// <summary>The weather of a site at the current instant.</summary>
     public AmbientState AmbientOf(SiteOptions site) => _sites.First(s => s.Site == site).Ambient;
 
-    /// <summary>All ticks until the scenario ends (forever with Loop).</summary>
+    /// <summary>All ticks from the start to the end of the scenario inclusive (forever with Loop).</summary>
     public IEnumerable<TickResult> Run()
     {
         while (!Finished)

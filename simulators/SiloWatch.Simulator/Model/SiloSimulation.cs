@@ -213,8 +213,21 @@ public sealed class SiloSimulation
         _apexY += w * ((offsetM * Math.Sin(a)) - _apexY);
     }
 
-    private SiloLoadState ComputeLoads() =>
-        SiloLoads.Compute(Shape, Solid, MassKg / Solid.DensityKgM3, _dischargeFactor, _scenario.Discharge.Ch, _scenario.Discharge.Cw, _discharge is not null || _dischargeFactor > 0 ? _channel : null);
+    private SiloLoadState ComputeLoads()
+    {
+        var channel = _discharge is not null || _dischargeFactor > 0 ? _channel : null;
+        var key = (MassKg, _dischargeFactor, channel);
+        // Idle silos keep their state: integrate again only when something that loads the wall changed.
+        if (_loadsKey is { } last && last == key)
+        {
+            return Loads;
+        }
+
+        _loadsKey = key;
+        return SiloLoads.Compute(Shape, Solid, MassKg / Solid.DensityKgM3, _dischargeFactor, _scenario.Discharge.Ch, _scenario.Discharge.Cw, channel);
+    }
+
+    private (double MassKg, double DischargeFactor, FlowChannel? Channel)? _loadsKey;
 
     private void UpdateShell(AmbientState ambient, double dtS)
     {

@@ -59,6 +59,11 @@ public sealed record SiloLoadState(
     double PressureFactor,
     double FrictionFactor)
 {
+    /// <summary>Cosine coefficients (n = 0..<see cref="SiloLoads.SpreadHarmonics"/>) of the channel zone and of the zones beside it.</summary>
+    public double[] InsideHarmonics { get; init; } = [];
+
+    public double[] BesideHarmonics { get; init; } = [];
+
     /// <summary>The load the floor or hopper passes to its supports (without the structure), kN.</summary>
     public double BaseLoadKn => Hopper.TotalKn > 0 || Surface.InHopper ? Hopper.TotalKn : FloorForceKn;
 }
@@ -101,8 +106,57 @@ public static class SiloLoads
         var hopperProfile = shape.HopperShape == SiloWatch.Plant.HopperShape.Flat
             ? HopperProfile.None
             : SliceEquations.Hopper(shape, gamma, solid.HopperWallFriction, floor / shape.AreaM2, shape.HopperApexToTransitionM);
+        var (inside, beside) = channelProfile is null ? ([], []) : Harmonics(halfAngle);
         return new SiloLoadState(surface, q0, filling, channelProfile, halfAngle, hopperProfile, verticalWeight, wallFriction, floor,
-            gamma * volumeM3, pressureFactor, frictionFactor);
+            gamma * volumeM3, pressureFactor, frictionFactor)
+        {
+            InsideHarmonics = inside,
+            BesideHarmonics = beside,
+        };
+    }
+
+    /// <summary>
+    /// Highest circumferential harmonic of the channel pattern that reaches the gauges. The shell spreads a
+    /// local load round the ring: higher harmonics decay within a short height (shell theory), and keeping
+    /// n ≤ 3 also stops a ring of 6 gauges aliasing n = 5, 7 into n = 1 (a modelling choice, not a code value).
+    /// </summary>
+    public const int SpreadHarmonics = 3;
+
+    /// <summary>Cosine series of the zone weights (the pattern is symmetric about the channel axis), by quadrature.</summary>
+    public static (double[] Inside, double[] Beside) Harmonics(double halfAngleRad) =>
+        HarmonicsCache.GetOrAdd(halfAngleRad, ComputeHarmonics);
+
+    private static readonly System.Collections.Concurrent.ConcurrentDictionary<double, (double[], double[])> HarmonicsCache = new();
+
+    private static (double[] Inside, double[] Beside) ComputeHarmonics(double halfAngleRad)
+    {
+        const int points = 720;
+        var inside = new double[SpreadHarmonics + 1];
+        var beside = new double[SpreadHarmonics + 1];
+        for (var k = 0; k < points; k++)
+        {
+            var d = (k + 0.5) * 2 * Math.PI / points;
+            var (wi, wb) = ChannelWeights(d, halfAngleRad);
+            for (var n = 0; n <= SpreadHarmonics; n++)
+            {
+                var basis = Math.Cos(n * d) * (n == 0 ? 1.0 : 2.0) / points;
+                inside[n] += wi * basis;
+                beside[n] += wb * basis;
+            }
+        }
+
+        return (inside, beside);
+    }
+
+    private static double Series(double[] c, double delta)
+    {
+        var sum = 0.0;
+        for (var n = 0; n < c.Length; n++)
+        {
+            sum += c[n] * Math.Cos(n * delta);
+        }
+
+        return sum;
     }
 
     /// <summary>Weights of the channel zone and of the zones beside it at a ring angle Δ from the channel axis (smoothed edges).</summary>
@@ -133,7 +187,8 @@ public static class SiloLoads
     /// <summary>
     /// Normal wall pressure and accumulated wall friction at a point of the ring, depth z below the
     /// contact: Janssen with discharge factors, and with an eccentric channel p_hce inside and
-    /// p_hae = 2·p_hf − p_hce beside it [M: EN 1991-4 §5.2.4.3].
+    /// p_hae = 2·p_hf − p_hce beside it [M: EN 1991-4 §5.2.4.3]; the friction deficit of the channel is carried
+    /// by the rest of the ring. Both as the gauges see them (harmonics n ≤ 3).
     /// </summary>
     public static (double PressureKPa, double FrictionKnPerM) WallAt(SiloLoadState s, SolidParameters solid, double depthM, double deltaFromChannelRad, double channelStrength)
     {
@@ -148,11 +203,16 @@ public static class SiloLoads
         var nz = nzf;
         if (s.Channel is not null && channelStrength > 0)
         {
-            var (inside, beside) = ChannelWeights(deltaFromChannelRad, s.ChannelHalfAngleRad);
+            var inside = Series(s.InsideHarmonics, deltaFromChannelRad);
+            var beside = Series(s.BesideHarmonics, deltaFromChannelRad);
             var pvc = s.Channel.VerticalAt(depthM);
             var nzc = s.Channel.WallFrictionAt(depthM);
             pv += channelStrength * ((inside * (pvc - pvf)) + (beside * (pvf - pvc)));
-            nz += channelStrength * ((inside * (nzc - nzf)) + (beside * (nzf - nzc)));
+
+            // Friction: the flowing channel hangs less on the wall; the static solid round the rest of the ring
+            // takes the difference, so the total down the wall (and the floor load) is unchanged [D: vertical equilibrium].
+            var share = s.InsideHarmonics[0] / (1 - s.InsideHarmonics[0]);
+            nz += channelStrength * (nzc - nzf) * (inside - ((1 - inside) * share));
         }
 
         return (s.PressureFactor * solid.K * pv, s.FrictionFactor * nz);

@@ -68,7 +68,11 @@ public static class SliceEquations
         var steps = Math.Max(8, (int)Math.Ceiling(depthM / StepM));
         var decay = kMu / hydraulicRadiusM;
         var rows = Rk4.Integrate(
-            (_, y) => [unitWeightKnM3 - (decay * y[0]), kMu * y[0]],
+            (_, y, d) =>
+            {
+                d[0] = unitWeightKnM3 - (decay * y[0]);
+                d[1] = kMu * y[0];
+            },
             [surchargeKPa, 0.0],
             0,
             depthM,
@@ -79,8 +83,8 @@ public static class SliceEquations
         for (var i = 0; i <= steps; i++)
         {
             depth[i] = depthM * i / steps;
-            pv[i] = rows[i][0];
-            nz[i] = rows[i][1];
+            pv[i] = rows[2 * i];
+            nz[i] = rows[(2 * i) + 1];
         }
 
         return new VerticalProfile(depth, pv, nz);
@@ -109,19 +113,21 @@ public static class SliceEquations
         var exponent = shape.HopperShape == SiloWatch.Plant.HopperShape.Wedge ? 1.0 : 2.0;
         var steps = Math.Max(16, (int)Math.Ceiling((topXM - shape.HopperApexToOutletM) / StepM));
         var rows = Rk4.Integrate(
-            (x, y) =>
+            (x, y, d) =>
             {
                 var a = shape.HopperArea(x);
                 var u = shape.HopperPerimeter(x);
                 var wall = f * y[0] * u * lift;
                 // dp/dx = p·(F·U·(tanβ+μ)/A − A'/A) − γ, with A'/A = exponent/x.
-                return [(wall / a) - (exponent * y[0] / x) - unitWeightKnM3, -wall, -unitWeightKnM3 * a];
+                d[0] = (wall / a) - (exponent * y[0] / x) - unitWeightKnM3;
+                d[1] = -wall;
+                d[2] = -unitWeightKnM3 * a;
             },
             [topVerticalKPa, 0.0, 0.0],
             topXM,
             shape.HopperApexToOutletM,
             steps);
-        var last = rows[^1];
+        var last = rows.AsSpan(rows.Length - 3);
         var outletArea = shape.HopperArea(shape.HopperApexToOutletM);
         var outletPv = Math.Max(0, last[0]);
         return new HopperProfile(

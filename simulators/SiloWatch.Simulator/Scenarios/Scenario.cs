@@ -247,6 +247,7 @@ public static class ScenarioLoader
         AllowTrailingCommas = true,
         PropertyNameCaseInsensitive = true,
         UnmappedMemberHandling = JsonUnmappedMemberHandling.Disallow,
+        Converters = { new LenientTimeSpanConverter() },
     };
 
     public static Scenario LoadFile(string path)
@@ -267,4 +268,31 @@ public static class ScenarioLoader
 
     public static Scenario Parse(string json) =>
         JsonSerializer.Deserialize<Scenario>(json, Options) ?? throw new InvalidDataException("scenario: empty document");
+}
+
+/// <summary>TimeSpan as "hh:mm:ss" (hours may exceed 23, e.g. "24:00:00") or .NET's "d.hh:mm:ss".</summary>
+public sealed class LenientTimeSpanConverter : JsonConverter<TimeSpan>
+{
+    public override TimeSpan Read(ref Utf8JsonReader reader, Type typeToConvert, JsonSerializerOptions options)
+    {
+        var text = reader.GetString() ?? throw new JsonException("a duration must be a string like \"01:30:00\"");
+        if (TimeSpan.TryParseExact(text, "c", System.Globalization.CultureInfo.InvariantCulture, out var value))
+        {
+            return value;
+        }
+
+        var parts = text.Split(':');
+        if (parts.Length == 3
+            && int.TryParse(parts[0], System.Globalization.NumberStyles.None, System.Globalization.CultureInfo.InvariantCulture, out var h)
+            && int.TryParse(parts[1], System.Globalization.NumberStyles.None, System.Globalization.CultureInfo.InvariantCulture, out var m) && m < 60
+            && double.TryParse(parts[2], System.Globalization.NumberStyles.AllowDecimalPoint, System.Globalization.CultureInfo.InvariantCulture, out var sec) && sec < 60)
+        {
+            return TimeSpan.FromHours(h) + TimeSpan.FromMinutes(m) + TimeSpan.FromSeconds(sec);
+        }
+
+        throw new JsonException($"'{text}' is not a duration (use hh:mm:ss, hours may exceed 23)");
+    }
+
+    public override void Write(Utf8JsonWriter writer, TimeSpan value, JsonSerializerOptions options) =>
+        writer.WriteStringValue(value.ToString("c", System.Globalization.CultureInfo.InvariantCulture));
 }

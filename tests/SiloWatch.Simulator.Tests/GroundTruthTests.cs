@@ -1,0 +1,88 @@
+using SiloWatch.Plant;
+using SiloWatch.Simulator.Model;
+using SiloWatch.Simulator.Output;
+using SiloWatch.Simulator.Physics;
+using SiloWatch.Simulator.Scenarios;
+using SiloWatch.Simulator.Tests.Support;
+
+namespace SiloWatch.Simulator.Tests;
+
+public sealed class GroundTruthTests
+{
+    [Fact]
+    public void DeliveredAndDischargedMassesAddUpInTheTruth()
+    {
+        var scenario = new ScenarioBuilder().Lasting(TimeSpan.FromMinutes(30)).WithFill("S1", 30).WithFill("C1", 50)
+            .With(new ScenarioEvent { At = TimeSpan.FromMinutes(1), Type = ScenarioEventType.Delivery, Silo = "S1", MassKg = 60000, RateKgPerS = 80, Batches = 2, BatchGap = TimeSpan.FromMinutes(2) })
+            .With(new ScenarioEvent { At = TimeSpan.FromMinutes(5), Type = ScenarioEventType.Discharge, Silo = "C1", MassKg = 30000, RateKgPerS = 90 })
+            .Build();
+        var model = TestPlant.Model(scenario);
+        var s1 = model.Silos.Single(s => s.Options.Id == "S1");
+        var c1 = model.Silos.Single(s => s.Options.Id == "C1");
+        var s1Start = s1.MassKg;
+        var c1Start = c1.MassKg;
+        var run = StreamCollector.RunToEnd(model);
+        Assert.Equal(s1Start + 60000, s1.MassKg, 1e-6);
+        Assert.Equal(c1Start - 30000, c1.MassKg, 1e-6);
+
+        var rows = run.Ticks.SelectMany(t => t.Truth).Where(r => r.Silo == "S1").ToList();
+        Assert.Contains(rows, r => r.Flow == FlowState.Filling);
+        Assert.Contains(rows, r => r.Flow == FlowState.Idle && r.Time > rows[0].Time + TimeSpan.FromMinutes(2) && r.Time < rows[0].Time + TimeSpan.FromMinutes(9)); // the gap between wagons
+        Assert.True(rows[^1].LevelM > rows[0].LevelM);
+    }
+
+    [Fact]
+    public void TheWeighedLegsCarryTheContentsAndTheStructure()
+    {
+        var scenario = new ScenarioBuilder().WithFill("S1", 60).Build();
+        var model = TestPlant.Model(scenario);
+        model.Step();
+        var s1 = model.Silos.Single(s => s.Options.Id == "S1");
+        var legs = s1.SupportLoadsKn(new AmbientState(10, double.NaN, 0, 0, 0));
+        var expected = (s1.MassKg + s1.Options.Weighing.StructureMassKg) * SolidParameters.StandardGravity / 1000;
+        Assert.Equal(expected, legs.Sum(), expected * 1e-12);
+    }
+
+    [Fact]
+    public void WindLeansTheLegReactionsDownwindWithoutChangingTheirSum()
+    {
+        var scenario = new ScenarioBuilder().WithFill("S1", 20).Build();
+        var model = TestPlant.Model(scenario);
+        model.Step();
+        var s1 = model.Silos.Single(s => s.Options.Id == "S1");
+        var calm = s1.SupportLoadsKn(new AmbientState(10, double.NaN, 0, 0, 225));
+        var windy = s1.SupportLoadsKn(new AmbientState(10, double.NaN, 0, 25, 225));
+        Assert.Equal(calm.Sum(), windy.Sum(), 1e-6);
+        // Wind from 225° pushes toward 45°: leg 1 (at 45°) takes more, leg 3 (at 225°) less.
+        Assert.True(windy[0] > calm[0] + 10);
+        Assert.True(windy[2] < calm[2] - 10);
+    }
+
+    [Fact]
+    public void TheTruthCsvHasTheDocumentedColumns()
+    {
+        using var text = new StringWriter();
+        using (var w = new TruthCsvWriter(text))
+        {
+            w.Write(new TruthRow(new DateTimeOffset(2026, 6, 21, 9, 0, 0, TimeSpan.Zero), "brackenford", "S1", 1234.56, 5.4321, 0.01, 90, FlowState.Discharging, -40, 120, 500, 300, "LC2:Dead", "outage"));
+        }
+
+        var lines = text.ToString().Split('\n', StringSplitOptions.RemoveEmptyEntries);
+        Assert.Equal(TruthCsvWriter.Header, lines[0]);
+        Assert.Equal("2026-06-21T09:00:00.000Z,brackenford,S1,1234.6,5.432,0.0100,90.0,discharging,-40.00,120.0,500.00,300.00,LC2:Dead,outage", lines[1]);
+    }
+
+    [Fact]
+    public void OnlyTheFloorShareReachesTheCellsOfAFloorOnlySilo()
+    {
+        var scenario = new ScenarioBuilder().WithFill("C1", 90).Build();
+        var model = TestPlant.Model(scenario);
+        model.Step();
+        var c1 = model.Silos.Single(s => s.Options.Id == "C1");
+        Assert.Equal(WeighingArrangement.FloorOnly, c1.Options.Weighing.Arrangement);
+        var cells = c1.SupportLoadsKn(new AmbientState(10, double.NaN, 0, 0, 0)).Sum();
+        var contents = c1.MassKg * SolidParameters.StandardGravity / 1000;
+        // A slender cement silo (H/z0 ≈ 3) hangs most of its contents on the wall: well under the whole weight.
+        Assert.InRange(cells / contents, 0.3, 0.8);
+    }
+}

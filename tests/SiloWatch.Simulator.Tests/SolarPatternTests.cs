@@ -1,0 +1,81 @@
+using SiloWatch.Simulator.Physics;
+using SiloWatch.Simulator.Tests.Support;
+
+namespace SiloWatch.Simulator.Tests;
+
+public sealed class SolarPatternTests
+{
+    private static readonly string[] Axial = ["SG-R1-000", "SG-R1-060", "SG-R1-120", "SG-R1-180", "SG-R1-240", "SG-R1-300"];
+    private static readonly string[] Temperatures = ["T-R1-000", "T-R1-060", "T-R1-120", "T-R1-180", "T-R1-240", "T-R1-300"];
+    private static readonly double[] Angles = [0, 60, 120, 180, 240, 300];
+
+    [Fact]
+    public void TheSunRunsFromEastAtSunriseThroughSouthToWestAtSunset()
+    {
+        Assert.Equal(90, SunPath.AzimuthDeg(6.0001, 6, 18), 0.01);
+        Assert.Equal(180, SunPath.AzimuthDeg(12, 6, 18), 1e-9);
+        Assert.Equal(270, SunPath.AzimuthDeg(17.9999, 6, 18), 0.01);
+        Assert.True(double.IsNaN(SunPath.AzimuthDeg(23, 6, 18)));
+    }
+
+    [Fact]
+    public void TheAxialRingsSolarPatternFollowsTheSunFromMorningToAfternoon()
+    {
+        // Europe/London in June is UTC+1; sunrise 05:00 and sunset 21:00 local in this scenario.
+        var scenario = new ScenarioBuilder()
+            .StartingAt(new DateTimeOffset(2026, 6, 21, 4, 30, 0, TimeSpan.Zero))
+            .Lasting(TimeSpan.FromHours(12))
+            .WithFill("S1", 50)
+            .WithNoise(strainMicro: 0.3)
+            .WithWeather(w =>
+            {
+                w.SunriseHour = 5;
+                w.SunsetHour = 21;
+                w.SunWarmingK = 15;
+                w.Cloudiness = 0;
+            })
+            .Build();
+        scenario.SamplePeriod = TimeSpan.FromSeconds(10);
+        scenario.TruthInterval = TimeSpan.FromMinutes(10);
+        var run = StreamCollector.RunToEnd(TestPlant.Model(scenario));
+
+        var morning = new DateTimeOffset(2026, 6, 21, 8, 0, 0, TimeSpan.Zero);   // 09:00 local
+        var afternoon = new DateTimeOffset(2026, 6, 21, 15, 0, 0, TimeSpan.Zero); // 16:00 local
+        var morningPhase = Phase(run, morning);
+        var afternoonPhase = Phase(run, afternoon);
+        var sunMorning = SunPath.AzimuthDeg(9, 5, 21);     // 135°
+        var sunAfternoon = SunPath.AzimuthDeg(16, 5, 21);  // 213.75°
+
+        // The shell lags the sun by its time constant (10 min ≈ 2° of sun travel); allow 8°.
+        Assert.True(RingFit.AngleBetween(morningPhase, sunMorning) < 8, $"morning n = 1 at {morningPhase:F1}°, sun at {sunMorning:F1}°");
+        Assert.True(RingFit.AngleBetween(afternoonPhase, sunAfternoon) < 8, $"afternoon n = 1 at {afternoonPhase:F1}°, sun at {sunAfternoon:F1}°");
+        Assert.True(afternoonPhase > morningPhase + 60, "the pattern turns clockwise (east → west) with the sun");
+
+        // The gauge temperatures say the same: the sensor facing the sun is the warmest.
+        var temps = run.Snapshot("S1", Temperatures, morning);
+        Assert.Equal(120.0, Angles[Array.IndexOf(temps, temps.Max())]);
+        var tempsPm = run.Snapshot("S1", Temperatures, afternoon);
+        Assert.Equal(240.0, Angles[Array.IndexOf(tempsPm, tempsPm.Max())]);
+    }
+
+    [Fact]
+    public void AtNightTheRingHasNoSolarPattern()
+    {
+        var scenario = new ScenarioBuilder()
+            .StartingAt(new DateTimeOffset(2026, 6, 21, 0, 0, 0, TimeSpan.Zero))
+            .Lasting(TimeSpan.FromMinutes(30))
+            .WithFill("S1", 50)
+            .WithNoise(strainMicro: 0.3)
+            .Build();
+        var run = StreamCollector.RunToEnd(TestPlant.Model(scenario));
+        var values = run.Snapshot("S1", Axial, scenario.Start!.Value + TimeSpan.FromMinutes(29)).Select(v => BridgeInverse.QuarterMicro(v, 2.1)).ToArray();
+        var (_, a1, _) = RingFit.FirstHarmonic(Angles, values);
+        Assert.True(a1 < 1.5, $"A1 = {a1:F2} µε at night");
+    }
+
+    private static double Phase(StreamCollector run, DateTimeOffset at)
+    {
+        var values = run.Snapshot("S1", Axial, at).Select(v => BridgeInverse.QuarterMicro(v, 2.1)).ToArray();
+        return RingFit.FirstHarmonic(Angles, values).PhaseDeg;
+    }
+}
