@@ -27,8 +27,8 @@ public enum ActionAssessmentClass
 /// <summary>Wall loads at one depth: pressures in kPa, axial wall force per metre of perimeter in kN/m (compression positive).</summary>
 public readonly record struct WallLoads(double HorizontalKPa, double WallFrictionKPa, double VerticalKPa, double AxialForceKnPerM);
 
-/// <summary>The discharge patch on a thin-walled circular silo: p_pe·cos θ over a height s [M].</summary>
-public readonly record struct DischargePatch(double FactorCpe, double PressureKPa, double HeightM, double EccentricityRatioE);
+/// <summary>A patch load on a thin-walled circular silo (discharge C_pe or filling C_pf): p_p·cos θ over a height s [M].</summary>
+public readonly record struct PatchLoad(double Factor, double PressureKPa, double HeightM, double EccentricityRatioE);
 
 /// <summary>Equations of EN 1991-4:2006 that the monitoring uses, each with its clause. Characteristic values only.</summary>
 public static class En1991Part4

@@ -27,9 +27,6 @@ public sealed record LoadFactors
     /// <summary>Hopper filling coefficient b in F_f = 1 − b/(1 + tanβ/μ_h) [M]. Default 0.2.</summary>
     public double HopperFillingB { get; init; } = 0.2;
 
-    /// <summary>Floor/hopper load magnifier C_b on the transition vertical stress [M?]. Default 1.0 (monitoring expectation, no magnifier).</summary>
-    public double FloorLoadMagnifierCb { get; init; } = 1.0;
-
     /// <summary>e_o/d_c above which discharge is "large eccentric" and needs the flow-channel procedure [M]. Default 0.25.</summary>
     public double LargeEccentricityRatio { get; init; } = 0.25;
 

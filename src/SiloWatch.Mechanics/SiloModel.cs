@@ -351,7 +351,10 @@ public sealed class SiloModel
         return (pv, pn, HopperFrictionUsed * pn);
     }
 
-    /// <summary>Expected loads for a fill state (contents only, but <see cref="ExpectedLoads.WeighedLoadKn"/> adds the structure).</summary>
+    /// <summary>
+    /// Expected loads for a fill state (contents only, but <see cref="ExpectedLoads.WeighedLoadKn"/> adds the structure).
+    /// The flow does not change them: discharge factors raise wall pressures, not the weight or its floor share.
+    /// </summary>
     public ExpectedLoads Expect(in FillState state)
     {
         var contents = _gamma * state.VolumeM3;
@@ -531,7 +534,7 @@ public sealed class SiloModel
     }
 
     /// <summary>Discharge patch for the silo full to the eaves (thin circular wall only), EN 1991-4 §5.2.2.2 [M?].</summary>
-    public DischargePatch DischargePatchAt(double depthM, double fillingEccentricityM = 0)
+    public PatchLoad DischargePatchAt(double depthM, double fillingEccentricityM = 0)
     {
         RequireSlender();
         if (Geometry.Section != SectionShape.Circular)
@@ -548,7 +551,22 @@ public sealed class SiloModel
         var e = Math.Max(fillingEccentricityM, OutletEccentricityM);
         var cpe = En1991Part4.PatchFactor(Factors.DischargePatchBase, Material.PatchFactorCop, e, dc, AspectRatio, Factors.PatchSlendernessCoefficient);
         var phe = CharacteristicAt(depthM).Discharge.HorizontalKPa;
-        return new DischargePatch(cpe, cpe * phe, Factors.PatchHeightOverDc * dc, 2 * e / dc);
+        return new PatchLoad(cpe, cpe * phe, Factors.PatchHeightOverDc * dc, 2 * e / dc);
+    }
+
+    /// <summary>Filling patch for a slender circular silo with filling eccentricity e_f: C_pf (same form as C_pe, base 0.21) times p_hf [M?].</summary>
+    public PatchLoad FillingPatchAt(double depthM, double fillingEccentricityM)
+    {
+        RequireSlender();
+        if (Geometry.Section != SectionShape.Circular)
+        {
+            throw new NotSupportedException($"filling patch loads on a {Geometry.Section} section (EN 1991-4 §5.2.1.2) are not modelled");
+        }
+
+        var dc = Geometry.CharacteristicDimensionM;
+        var cpf = En1991Part4.PatchFactor(Factors.FillingPatchBase, Material.PatchFactorCop, fillingEccentricityM, dc, AspectRatio, Factors.PatchSlendernessCoefficient);
+        var phf = CharacteristicAt(depthM).Filling.HorizontalKPa;
+        return new PatchLoad(cpf, cpf * phf, Factors.PatchHeightOverDc * dc, 2 * fillingEccentricityM / dc);
     }
 
     private void RequireSlender()

@@ -88,11 +88,21 @@ public sealed class En1991Part4Tests
         // C_pe = 0.42·C_op·(1 + 2E²)·(1 − e^(−1.5(h_c/d_c − 1))) [M?]; wheat C_op = 0.5 [M];
         // central filling and outlet: E = 0 → 0.21·(1 − e^(−3)) = 0.1995447. Patch height s = π·d_c/16 [M].
         var patch = model.DischargePatchAt(18.0);
-        Assert.Equal(0.1995447, patch.FactorCpe, 1e-7);
+        Assert.Equal(0.1995447, patch.Factor, 1e-7);
         Assert.Equal(Math.PI * 6 / 16, patch.HeightM, 12);
-        Assert.Equal(patch.FactorCpe * model.CharacteristicAt(18.0).Discharge.HorizontalKPa, patch.PressureKPa, 9);
+        Assert.Equal(patch.Factor * model.CharacteristicAt(18.0).Discharge.HorizontalKPa, patch.PressureKPa, 9);
         // With a filling eccentricity e = 0.6 m: E = 0.2, (1 + 2·0.04) = 1.08.
-        Assert.Equal(0.1995447 * 1.08, model.DischargePatchAt(18.0, 0.6).FactorCpe, 1e-7);
+        Assert.Equal(0.1995447 * 1.08, model.DischargePatchAt(18.0, 0.6).Factor, 1e-7);
+    }
+
+    [Fact]
+    public void TheFillingPatchIsHalfTheDischargeFormOnTheFillingPressure()
+    {
+        var model = WorkedExample();
+        // C_pf = 0.21·C_op·(1 + 2E²)·(1 − e^(−1.5(h_c/d_c − 1))), E = 2e_f/d_c [M?]: e_f = 0.6 m → 0.105·1.08·0.950213.
+        var patch = model.FillingPatchAt(12.0, 0.6);
+        Assert.Equal(0.105 * 1.08 * (1 - Math.Exp(-3)), patch.Factor, 12);
+        Assert.Equal(patch.Factor * model.CharacteristicAt(12.0).Filling.HorizontalKPa, patch.PressureKPa, 9);
     }
 
     [Theory]
