@@ -1,9 +1,10 @@
 using SiloWatch.Simulator.Scenarios;
 using SiloWatch.Simulator.Tests.Support;
+using Xunit.Abstractions;
 
 namespace SiloWatch.Simulator.Tests;
 
-public sealed class EccentricDischargeTests
+public sealed class EccentricDischargeTests(ITestOutputHelper output)
 {
     private static readonly string[] S1Axial = ["SG-R1-000", "SG-R1-060", "SG-R1-120", "SG-R1-180", "SG-R1-240", "SG-R1-300"];
     private static readonly string[] S1Hoop = ["SG-R2-000", "SG-R2-060", "SG-R2-120", "SG-R2-180", "SG-R2-240", "SG-R2-300"];
@@ -17,7 +18,8 @@ public sealed class EccentricDischargeTests
     {
         var (before, during) = RunDischarge("S1", channelDeg, S1Axial, BridgeInverse.QuarterMicro, 2.1);
         var delta = during.Zip(before, (a, b) => a - b).ToArray();
-        var (_, a1, phase) = RingFit.FirstHarmonic(Angles, delta);
+        var (a0, a1, phase) = RingFit.FirstHarmonic(Angles, delta);
+        output.WriteLine($"axial Δε: A0 = {a0:F1} µε, A1 = {a1:F1} µε at {phase:F1}° (channel {channelDeg}°)");
 
         // Less friction is carried down the wall inside the channel (lower pressure), so the wall there is
         // less compressed: Δε is highest at the channel. 6 gauges 60° apart place a harmonic to within a few degrees.
@@ -31,7 +33,8 @@ public sealed class EccentricDischargeTests
         const double channelDeg = 120;
         var (before, during) = RunDischarge("S1", channelDeg, S1Hoop, BridgeInverse.QuarterMicro, 2.1);
         var delta = during.Zip(before, (a, b) => a - b).ToArray();
-        var (_, a1, phase) = RingFit.FirstHarmonic(Angles, delta);
+        var (a0, a1, phase) = RingFit.FirstHarmonic(Angles, delta);
+        output.WriteLine($"hoop Δε: A0 = {a0:F1} µε, A1 = {a1:F1} µε at {phase:F1}°; per gauge {string.Join(", ", delta.Select(d => d.ToString("F1", System.Globalization.CultureInfo.InvariantCulture)))}");
         // EN's zones balance the pressure locally (p_hae beside makes up for p_hce inside), so n = 1 is a small
         // part of the hoop pattern; it is still well above the 0.3 µε noise.
         Assert.True(a1 > 1, $"first harmonic {a1:F1} µε is too weak to be a pattern");

@@ -47,6 +47,8 @@ public sealed class MessageContractTests
     [InlineData("demo")]
     [InlineData("sunny-idle-afternoon")]
     [InlineData("eccentric-discharge")]
+    [InlineData("broker-outage")]
+    [InlineData("load-cell-failure-during-filling")]
     public void WithoutFaultsEveryValueStaysInsideItsSensorsRange(string name)
     {
         var scenario = ScenarioLoader.LoadFile(TestPlant.ScenarioPath(name));

@@ -118,7 +118,8 @@ public static class SiloLoads
     /// <summary>
     /// Highest circumferential harmonic of the channel pattern that reaches the gauges. The shell spreads a
     /// local load round the ring: higher harmonics decay within a short height (shell theory), and keeping
-    /// n ≤ 3 also stops a ring of 6 gauges aliasing n = 5, 7 into n = 1 (a modelling choice, not a code value).
+    /// n ≤ 3 also stops a ring of 6 gauges aliasing n = 5, 7 into n = 1. The harmonics are tapered with
+    /// Fejér weights (a smoothing kernel, no overshoot). A modelling choice, not a code value.
     /// </summary>
     public const int SpreadHarmonics = 3;
 
@@ -139,7 +140,8 @@ public static class SiloLoads
             var (wi, wb) = ChannelWeights(d, halfAngleRad);
             for (var n = 0; n <= SpreadHarmonics; n++)
             {
-                var basis = Math.Cos(n * d) * (n == 0 ? 1.0 : 2.0) / points;
+                // Fejér weights 1 − n/(N+1): a positive smoothing kernel, so the spread pattern does not overshoot.
+                var basis = Math.Cos(n * d) * (n == 0 ? 1.0 : 2.0) / points * (1 - (n / (SpreadHarmonics + 1.0)));
                 inside[n] += wi * basis;
                 beside[n] += wb * basis;
             }
