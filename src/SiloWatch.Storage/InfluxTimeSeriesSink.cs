@@ -49,8 +49,10 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
     private long _replayed;
     private long _rejected;
     private long _skipped;
+    private long _lost;
     private long _lastStoredUnixMs = -1;
     private volatile string? _lastError;
+    private readonly string _displayUrl;
 
     /// <param name="token">The API token; null reads it through <see cref="TokenSource"/>.</param>
     public InfluxTimeSeriesSink(TimeSeriesOptions options, TimeProvider timeProvider, ILogger<InfluxTimeSeriesSink> logger, string? token = null)
@@ -105,7 +107,8 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         _spool = new DiskSpool(options.SpoolDirectory, options.SpoolMaxBytes, logger);
         _buffer = new PointBuffer(options.BatchSize, options.BufferCapacityPoints, options.FlushInterval, timeProvider, SpillToSpool);
         UpdateSpoolAlarm();
-        LogStarted(_logger, options.Url, options.Bucket, _spool.DirectoryPath);
+        _displayUrl = new Uri(options.Url).GetComponents(UriComponents.SchemeAndServer | UriComponents.Path, UriFormat.UriEscaped);
+        LogStarted(_logger, _displayUrl, options.Bucket, _spool.DirectoryPath);
         _writer = Task.Run(RunAsync);
     }
 
@@ -122,7 +125,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         SpoolBytes = _spool.Bytes,
         SpoolMaxBytes = _spool.MaxBytes,
         SpoolNearlyFull = Volatile.Read(ref _spoolAlarm) == 1,
-        DiscardedPoints = _spool.DiscardedPoints,
+        DiscardedPoints = _spool.DiscardedPoints + Interlocked.Read(ref _lost),
         RejectedPoints = Interlocked.Read(ref _rejected),
         SkippedNonFinitePoints = Interlocked.Read(ref _skipped),
         LastStoredUtc = Interlocked.Read(ref _lastStoredUnixMs) is var ms and >= 0 ? DateTimeOffset.FromUnixTimeMilliseconds(ms) : null,
@@ -256,6 +259,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         {
             // The spool itself failed (disk full, permissions): nothing else can hold these points.
             _lastError = Describe(ex);
+            Interlocked.Add(ref _lost, batch.Count);
             LogSpoolFailed(_logger, batch.Count, ex);
         }
         finally
@@ -276,8 +280,9 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         }
         catch (IOException ex)
         {
+            // Not the store's fault, but waiting the probe interval keeps a failing disk from spinning this loop.
             _lastError = Describe(ex);
-            LogSpoolFailed(_logger, 0, ex);
+            LogSpoolReadFailed(_logger, ex);
             MarkUnreachable();
             return;
         }
@@ -367,6 +372,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         catch (Exception ex) when (ex is IOException or UnauthorizedAccessException)
         {
             _lastError = Describe(ex);
+            Interlocked.Add(ref _lost, lines);
             LogSpoolFailed(_logger, lines, ex);
         }
     }
@@ -376,7 +382,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         if (_reachable)
         {
             _reachable = false;
-            LogUnreachable(_logger, _options.Url, _lastError ?? "");
+            LogUnreachable(_logger, _displayUrl, _lastError ?? "");
         }
 
         // Probe backoff: doubling from BaseDelay up to MaxDelay, with +-20 % jitter so that many
@@ -395,7 +401,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         {
             _reachable = true;
             _lastError = null;
-            LogReachable(_logger, _options.Url, _spool.Bytes);
+            LogReachable(_logger, _displayUrl, _spool.Bytes);
         }
     }
 
@@ -458,6 +464,9 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
 
     [LoggerMessage(Level = LogLevel.Error, Message = "Time-series spool write failed; {Points} points lost")]
     private static partial void LogSpoolFailed(ILogger logger, int points, Exception exception);
+
+    [LoggerMessage(Level = LogLevel.Error, Message = "Time-series spool could not be read for replay")]
+    private static partial void LogSpoolReadFailed(ILogger logger, Exception exception);
 
     [LoggerMessage(Level = LogLevel.Warning, Message = "Time-series spool nearly full: {Bytes} of {MaxBytes} bytes (alarm at {Percent} %)")]
     private static partial void LogSpoolNearlyFull(ILogger logger, long bytes, long maxBytes, int percent);
