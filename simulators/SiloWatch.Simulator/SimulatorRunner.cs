@@ -118,17 +118,19 @@ public static class SimulatorRunner
 
     private static async Task PaceAsync(TickResult tick, Stopwatch wall, double speed, CancellationToken ct)
     {
-        TimeSpan wait;
         if (speed <= 1)
         {
-            // At ×1 a sample is published when its timestamp is reached: never ahead of the wall clock.
-            wait = tick.Time - DateTimeOffset.UtcNow;
-        }
-        else
-        {
-            wait = (tick.Elapsed / speed) - wall.Elapsed;
+            // At ×1 a sample is published once its timestamp is reached: never ahead of the wall clock.
+            TimeSpan ahead;
+            while ((ahead = tick.Time - DateTimeOffset.UtcNow) > TimeSpan.Zero)
+            {
+                await Task.Delay(ahead < TimeSpan.FromMilliseconds(1) ? TimeSpan.FromMilliseconds(1) : ahead, ct).ConfigureAwait(false);
+            }
+
+            return;
         }
 
+        var wait = (tick.Elapsed / speed) - wall.Elapsed;
         if (wait > TimeSpan.FromMilliseconds(1))
         {
             await Task.Delay(wait, ct).ConfigureAwait(false);

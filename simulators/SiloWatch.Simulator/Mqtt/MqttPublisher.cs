@@ -102,7 +102,12 @@ public sealed class MqttPublisher : IAsyncDisposable
 
                 next += sent;
             }
-            catch (Exception ex) when (ex is MQTTnet.Exceptions.MqttCommunicationException or MQTTnet.Exceptions.MqttClientNotConnectedException or TimeoutException && !ct.IsCancellationRequested)
+            catch (Exception ex) when (ct.IsCancellationRequested && ex is not OperationCanceledException)
+            {
+                // MQTTnet reports a cancelled wait for an acknowledgement as a time-out: it is a cancellation.
+                throw new OperationCanceledException("publishing was cancelled", ex, ct);
+            }
+            catch (Exception ex) when (ex is MQTTnet.Exceptions.MqttCommunicationException or MQTTnet.Exceptions.MqttClientNotConnectedException or TimeoutException)
             {
                 // Observe the remaining tasks so that their failures do not go unobserved; resend from the first unacknowledged.
                 foreach (var task in tasks.Skip(sent))
