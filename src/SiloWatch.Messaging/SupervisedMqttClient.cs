@@ -60,6 +60,7 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
     private Task _loop = Task.CompletedTask;
     private string? _lastProblem;
     private bool _subscribedSinceStart;
+    private bool _reportedThisAttempt;
     private long _connects;
     private int _started;
     private int _stopping;
@@ -304,6 +305,7 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
 
     private async Task<bool> ConnectAsync(CancellationToken ct)
     {
+        _reportedThisAttempt = false;
         string? password;
         try
         {
@@ -348,6 +350,12 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
             }
             catch (Exception ex) when (ex is MqttCommunicationException or SocketException or IOException or AuthenticationException)
             {
+                if (_reportedThisAttempt)
+                {
+                    // The certificate check already said why; the TLS exception that follows adds nothing.
+                    return false;
+                }
+
                 ReportProblem("connect:" + ex.GetType().Name, LogLevel.Warning, null,
                     $"cannot connect to the MQTT broker {_host}:{_options.Port}: {Innermost(ex).Message}");
                 return false;
@@ -664,6 +672,7 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
     /// <summary>Logs a connection problem at <paramref name="level"/> when it differs from the last one, else at debug.</summary>
     private void ReportProblem(string key, LogLevel level, Exception? exception, string text)
     {
+        _reportedThisAttempt = true;
         if (key == _lastProblem)
         {
             LogProblemRepeated(_logger, text);
