@@ -1,5 +1,6 @@
 using SiloWatch.Service.Hosting;
 using SiloWatch.Service.Ingest;
+using SiloWatch.Storage;
 
 namespace SiloWatch.Service.Health;
 
@@ -12,17 +13,20 @@ public static class HealthEndpoints
     public static WebApplication MapSiloWatchHealth(this WebApplication app)
     {
         app.MapGet("/health", (TelemetryBridgeService bridge, TelemetryIngest ingest, OutboundQueue outbound,
-            IngestCounters counters, BrokerEndpoint endpoint) =>
+            IngestCounters counters, BrokerEndpoint endpoint, ITimeSeriesSink sink) =>
         {
             var connected = bridge.Client?.IsConnected ?? false;
+            var store = sink.Health;
+            var healthy = connected && store.StoreReachable && !store.SpoolNearlyFull;
             var broker = endpoint.Current;
             var report = new HealthReport(
-                connected ? "healthy" : "degraded",
+                healthy ? "healthy" : "degraded",
                 new BrokerHealth(connected, broker?.Host ?? "", broker?.Port ?? 0, endpoint.Embedded, bridge.Client?.Reconnects ?? 0),
                 [.. ingest.Workers.Select(w => new QueueHealth(w.Index, w.Depth, w.Pipelines.Count))],
                 outbound.Count,
-                counters.Snapshot());
-            return Results.Json(report, statusCode: connected ? 200 : 503);
+                counters.Snapshot(),
+                store);
+            return Results.Json(report, statusCode: healthy ? 200 : 503);
         });
 
         app.MapGet("/api/silos", (TelemetryIngest ingest) =>
@@ -39,7 +43,7 @@ public static class HealthEndpoints
     }
 }
 
-public sealed record HealthReport(string Status, BrokerHealth Broker, IReadOnlyList<QueueHealth> Queues, int OutboundDepth, IngestCountersSnapshot Counters);
+public sealed record HealthReport(string Status, BrokerHealth Broker, IReadOnlyList<QueueHealth> Queues, int OutboundDepth, IngestCountersSnapshot Counters, StorageHealth Store);
 
 public sealed record BrokerHealth(bool Connected, string Host, int Port, bool Embedded, long Reconnects);
 

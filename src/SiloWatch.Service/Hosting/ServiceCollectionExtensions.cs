@@ -93,6 +93,8 @@ public static class ServiceCollectionExtensions
             sp.GetRequiredService<IngestCounters>(),
             sp.GetRequiredService<OutboundQueue>(),
             sp.GetRequiredService<IOptions<InstanceOptions>>().Value,
+            sp.GetRequiredService<SiloWatch.Storage.ITimeSeriesSink>(),
+            sp.GetRequiredService<SiloWatch.Storage.SeriesCatalog>(),
             sp.GetRequiredService<TimeProvider>(),
             sp.GetRequiredService<ILogger<TelemetryIngest>>()));
 

@@ -27,6 +27,7 @@ public static class SiloWatchApp
         builder.Services.Configure<HostOptions>(o => o.ShutdownTimeout = TimeSpan.FromSeconds(20));
 
         builder.AddSiloWatchPlant();
+        builder.AddSiloWatchStorage();
         builder.AddSiloWatchIngest();
         builder.AddSiloWatchDemo();
 

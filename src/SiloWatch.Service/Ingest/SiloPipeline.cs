@@ -2,6 +2,7 @@ using MQTTnet.Protocol;
 using SiloWatch.Messaging;
 using SiloWatch.Monitoring;
 using SiloWatch.Plant;
+using SiloWatch.Storage;
 
 namespace SiloWatch.Service.Ingest;
 
@@ -17,11 +18,15 @@ public sealed class SiloPipeline : ITelemetryReceiver
     private readonly RateLimitedLog _rejectLog;
     private readonly string _deadLetterTopic;
     private readonly string _stateTopic;
+    private readonly ITimeSeriesSink _sink;
+    private readonly SeriesCatalog _series;
     private long _receivedMs;
 
     public SiloPipeline(SiloRef silo, SiloMonitor monitor, TelemetryDecoderOptions decoderOptions, TopicScheme topics,
-        IngestCounters counters, OutboundQueue outbound, RateLimitedLog rejectLog)
+        IngestCounters counters, OutboundQueue outbound, RateLimitedLog rejectLog, ITimeSeriesSink sink, SeriesCatalog series)
     {
+        _sink = sink;
+        _series = series;
         Silo = silo;
         Monitor = monitor;
         _decoder = new TelemetryDecoder(silo, decoderOptions);
@@ -58,11 +63,31 @@ public sealed class SiloPipeline : ITelemetryReceiver
     {
         var estimate = Monitor.Evaluate(nowMs);
         LastEstimate = estimate;
+        Span<double> fields =
+        [
+            estimate.MassKg,
+            estimate.LevelM,
+            estimate.PercentFull,
+            estimate.RateKgPerS,
+            (estimate.MassHigh95Kg - estimate.MassLow95Kg) / (2 * 1.959964), // sigma from the 95 % interval
+            (double)estimate.Quality,
+        ];
+        _sink.Write(_series.Estimate(Silo.Index), estimate.TimestampMs, fields);
         _outbound.Enqueue(new OutboundMessage(_stateTopic, StatePayload.Encode(estimate, instanceId), Retain: true, MqttQualityOfServiceLevel.AtLeastOnce));
         return estimate;
     }
 
-    void ITelemetryReceiver.OnSample(in TelemetrySample sample) => Monitor.OnSample(sample);
+    void ITelemetryReceiver.OnSample(in TelemetrySample sample)
+    {
+        Monitor.OnSample(sample);
+        Span<double> fields =
+        [
+            sample.Value,
+            Monitor.LastValue(sample.SensorIndex),
+            (double)Monitor.SensorFlags(sample.SensorIndex, sample.TimestampMs).Severity(),
+        ];
+        _sink.Write(_series.Sensor(Silo.Index, sample.SensorIndex), sample.TimestampMs, fields);
+    }
 
     void ITelemetryReceiver.OnRejected(TelemetryRejection rejection)
     {

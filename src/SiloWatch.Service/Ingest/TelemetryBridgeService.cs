@@ -1,6 +1,7 @@
 using Microsoft.Extensions.Options;
 using SiloWatch.Messaging;
 using SiloWatch.Service.Hosting;
+using SiloWatch.Storage;
 
 namespace SiloWatch.Service.Ingest;
 
@@ -16,6 +17,8 @@ public sealed class TelemetryBridgeService(
     TelemetryIngest ingest,
     OutboundQueue outbound,
     IngestCounters counters,
+    ITimeSeriesSink sink,
+    Journal journal,
     TimeProvider time,
     ILoggerFactory loggers) : IHostedService, IAsyncDisposable
 {
@@ -33,6 +36,7 @@ public sealed class TelemetryBridgeService(
         // The embedded broker's port is only known now; the options instance is this service's own.
         options.Host = host;
         options.Port = port;
+        ingest.RestoreSnapshots(journal);
         ingest.Start(_stopping.Token);
         _client = new SupervisedMqttClient(options, instance.Value.Id, ingest.Subscriptions, ingest.OnMessageAsync,
             loggers.CreateLogger<SupervisedMqttClient>(), time);
@@ -51,6 +55,16 @@ public sealed class TelemetryBridgeService(
         catch (OperationCanceledException)
         {
             _logger.LogWarning("Stop timed out while draining the ingest queues");
+        }
+
+        ingest.SaveSnapshots(journal);
+        try
+        {
+            await sink.FlushAsync(cancellationToken).ConfigureAwait(false);
+        }
+        catch (OperationCanceledException)
+        {
+            _logger.LogWarning("Stop timed out while flushing the time-series sink");
         }
 
         outbound.Complete();

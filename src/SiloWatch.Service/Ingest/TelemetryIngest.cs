@@ -4,6 +4,7 @@ using SiloWatch.Messaging;
 using SiloWatch.Monitoring;
 using SiloWatch.Plant;
 using SiloWatch.Service.Hosting;
+using SiloWatch.Storage;
 
 namespace SiloWatch.Service.Ingest;
 
@@ -30,7 +31,7 @@ public sealed class TelemetryIngest
 
     public TelemetryIngest(PlantRegistry registry, ShardMap shard, SiloModels models, MonitoringOptions monitoring,
         TelemetryDecoderOptions decoderOptions, TopicScheme topics, IngestCounters counters, OutboundQueue outbound,
-        InstanceOptions options, TimeProvider time, ILogger<TelemetryIngest> logger)
+        InstanceOptions options, ITimeSeriesSink sink, SeriesCatalog series, TimeProvider time, ILogger<TelemetryIngest> logger)
     {
         _registry = registry;
         _topics = topics;
@@ -48,7 +49,7 @@ public sealed class TelemetryIngest
         foreach (var silo in shard.Owned)
         {
             var monitor = new SiloMonitor(silo, models.For(silo), monitoring, time);
-            var pipeline = new SiloPipeline(silo, monitor, decoderOptions, topics, counters, outbound, _rejectLog);
+            var pipeline = new SiloPipeline(silo, monitor, decoderOptions, topics, counters, outbound, _rejectLog, sink, series);
             _pipelinesByKey[silo.Key] = pipeline;
             _workers[ShardMap.ShardOf(silo.Key, partitions)].Add(pipeline);
         }
@@ -139,6 +140,57 @@ public sealed class TelemetryIngest
         var rejection = new TelemetryRejection(RejectReason.UnknownSilo, detail, site, silo, null, null, null, topic.Length > 200 ? topic[..200] : topic);
         _outbound.Enqueue(new OutboundMessage(_topics.DeadLetter(site, silo), DeadLetterCodec.Encode(rejection, _time.GetUtcNow().ToUnixTimeMilliseconds()),
             false, MqttQualityOfServiceLevel.AtLeastOnce));
+    }
+
+    /// <summary>Snapshot kind of a monitor's tare, load shares and calibration in the journal.</summary>
+    public const string MonitorSnapshotKind = "monitor";
+
+    // Snapshots may hold NaN (e.g. no mass known before a tare): keep them as named literals.
+    private static readonly System.Text.Json.JsonSerializerOptions SnapshotJson = new()
+    {
+        NumberHandling = System.Text.Json.Serialization.JsonNumberHandling.AllowNamedFloatingPointLiterals,
+    };
+
+    /// <summary>Restores each silo's tare, load shares and calibration from the journal (before the workers start).</summary>
+    public void RestoreSnapshots(Journal journal)
+    {
+        foreach (var pipeline in _pipelinesByKey.Values)
+        {
+            var json = journal.LoadSnapshot(pipeline.Silo.Key, MonitorSnapshotKind);
+            if (json is null)
+            {
+                continue;
+            }
+
+            try
+            {
+                var snapshot = System.Text.Json.JsonSerializer.Deserialize<MonitorSnapshot>(json, SnapshotJson);
+                if (snapshot is null)
+                {
+                    continue;
+                }
+
+                foreach (var problem in pipeline.Monitor.Restore(snapshot))
+                {
+                    _logger.LogWarning("Restoring {Silo}: {Problem}", pipeline.Silo.Key, problem);
+                }
+
+                _logger.LogInformation("Restored {Silo} from its snapshot of {Taken}", pipeline.Silo.Key, DateTimeOffset.FromUnixTimeMilliseconds(snapshot.TakenMs));
+            }
+            catch (Exception ex) when (ex is System.Text.Json.JsonException or ArgumentException or NotSupportedException)
+            {
+                _logger.LogWarning(ex, "Snapshot of {Silo} could not be read; starting without it", pipeline.Silo.Key);
+            }
+        }
+    }
+
+    /// <summary>Saves each silo's snapshot (after the workers have stopped, or from the silo's own worker).</summary>
+    public void SaveSnapshots(Journal journal)
+    {
+        foreach (var pipeline in _pipelinesByKey.Values)
+        {
+            journal.SaveSnapshot(pipeline.Silo.Key, MonitorSnapshotKind, System.Text.Json.JsonSerializer.Serialize(pipeline.Monitor.Snapshot(), SnapshotJson));
+        }
     }
 
     /// <summary>Stops taking messages, drains every queue and waits for the workers' last publish.</summary>

@@ -18,12 +18,20 @@ public sealed class ServiceUnderTest : IAsyncDisposable
 
     public TelemetryBridgeService Bridge => _app.Services.GetRequiredService<TelemetryBridgeService>();
 
+    public SiloWatch.Storage.Journal Journal => _app.Services.GetRequiredService<SiloWatch.Storage.Journal>();
+
     public long Accepted(string siloKey) => Ingest.Pipelines.Where(p => p.Silo.Key == siloKey).Sum(p => p.SamplesAccepted);
 
     public static async Task<ServiceUnderTest> StartAsync(int brokerPort, string instanceId = "it-0", params (string Key, string Value)[] settings)
     {
+        // One data folder per instance id and test run: a restarted instance finds its own journal again.
+        var data = Path.Combine(Path.GetTempPath(), "silowatch-it-" + Environment.ProcessId, instanceId);
+        Directory.CreateDirectory(data);
         var args = new List<string>
         {
+            $"--Storage:EmbeddedPath={Path.Combine(data, "series.db")}",
+            $"--Storage:JournalPath={Path.Combine(data, "journal.db")}",
+            $"--Storage:TimeSeries:SpoolDirectory={Path.Combine(data, "spool")}",
             "--Mqtt:Host=127.0.0.1",
             $"--Mqtt:Port={brokerPort}",
             $"--Mqtt:ClientId=silowatch-{instanceId}",
