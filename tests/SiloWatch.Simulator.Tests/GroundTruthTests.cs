@@ -59,6 +59,24 @@ public sealed class GroundTruthTests
     }
 
     [Fact]
+    public void AnOffCentreFillShiftsTheContentsTowardTheSpoutAndLoadsTheNearestLeg()
+    {
+        // S2 stands on 3 legs (0°, 120°, 240°) and only leg 1 is weighed: an offset toward it reads heavy.
+        var scenario = new ScenarioBuilder().Lasting(TimeSpan.FromMinutes(12)).WithFill("S2", 5)
+            .With(new ScenarioEvent { At = TimeSpan.FromMinutes(1), Type = ScenarioEventType.Delivery, Silo = "S2", MassKg = 28000, RateKgPerS = 60, FillOffsetRatio = 0.6, FillAzimuthDeg = 0 })
+            .Build();
+        var model = TestPlant.Model(scenario);
+        var run = StreamCollector.RunToEnd(model);
+        var last = run.Ticks.SelectMany(t => t.Truth).Last(r => r.Silo == "S2");
+        Assert.True(last.EccentricityM > 0.01, $"e = {last.EccentricityM:F3} m");
+        Assert.True(RingFit.AngleBetween(last.EccentricityAzimuthDeg, 0) < 1);
+        var s2 = model.Silos.Single(s => s.Options.Id == "S2");
+        var legs = s2.SupportLoadsKn(new AmbientState(10, double.NaN, 0, 0, 0));
+        Assert.True(legs[0] > legs[1] && legs[0] > legs[2]);
+        Assert.Equal(legs[1], legs[2], 1e-9);
+    }
+
+    [Fact]
     public void TheTruthCsvHasTheDocumentedColumns()
     {
         using var text = new StringWriter();

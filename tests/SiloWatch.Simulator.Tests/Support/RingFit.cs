@@ -28,6 +28,23 @@ public static class RingFit
         return (c[0], Math.Sqrt((c[1] * c[1]) + (c[2] * c[2])), phase < 0 ? phase + 360 : phase);
     }
 
+    /// <summary>Second harmonic: amplitude and the azimuth of one of its two maxima (0..180°).</summary>
+    public static (double A2, double PhaseDeg) SecondHarmonic(IReadOnlyList<double> anglesDeg, IReadOnlyList<double> values)
+    {
+        var n = anglesDeg.Count;
+        double a = 0, b = 0;
+        for (var k = 0; k < n; k++)
+        {
+            var t = 2 * anglesDeg[k] * Math.PI / 180;
+            a += 2.0 / n * values[k] * Math.Cos(t);
+            b += 2.0 / n * values[k] * Math.Sin(t);
+        }
+
+        // φ2 = atan2(b2, a2)/2 [D, DOMAIN.md §4]; equal spacing, so the sums are the least-squares fit.
+        var phase = Math.Atan2(b, a) * 90 / Math.PI;
+        return (Math.Sqrt((a * a) + (b * b)), phase < 0 ? phase + 180 : phase);
+    }
+
     /// <summary>Smallest angle between two azimuths, degrees (0..180).</summary>
     public static double AngleBetween(double a, double b)
     {
