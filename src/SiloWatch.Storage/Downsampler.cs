@@ -46,7 +46,14 @@ public sealed partial class Downsampler : ITimeSeriesSink
         }
     }
 
-    public StorageHealth Health => _inner.Health with { LatePoints = _inner.Health.LatePoints + Interlocked.Read(ref _late) };
+    public StorageHealth Health
+    {
+        get
+        {
+            var inner = _inner.Health;
+            return inner with { LatePoints = inner.LatePoints + Interlocked.Read(ref _late) };
+        }
+    }
 
     public void Write(SeriesKey series, long timestampMs, ReadOnlySpan<double> values)
     {

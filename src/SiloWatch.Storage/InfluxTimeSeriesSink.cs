@@ -184,7 +184,16 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         {
             while (reader.TryRead(out var item))
             {
-                await HandleAsync(item).ConfigureAwait(false);
+                try
+                {
+                    await HandleAsync(item).ConfigureAwait(false);
+                }
+                catch (Exception ex)
+                {
+                    // A bug must not stop the writer: later batches and flushes still need it.
+                    _lastError = Describe(ex);
+                    LogWriterFailed(_logger, ex);
+                }
             }
 
             if (reader.Completion.IsCompleted)
@@ -464,6 +473,9 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
 
     [LoggerMessage(Level = LogLevel.Error, Message = "Time-series spool write failed; {Points} points lost")]
     private static partial void LogSpoolFailed(ILogger logger, int points, Exception exception);
+
+    [LoggerMessage(Level = LogLevel.Error, Message = "Time-series writer failed on one batch; it carries on")]
+    private static partial void LogWriterFailed(ILogger logger, Exception exception);
 
     [LoggerMessage(Level = LogLevel.Error, Message = "Time-series spool could not be read for replay")]
     private static partial void LogSpoolReadFailed(ILogger logger, Exception exception);

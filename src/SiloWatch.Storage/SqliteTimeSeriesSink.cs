@@ -199,6 +199,13 @@ public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
             {
                 await WriteWithRetryAsync(batch).ConfigureAwait(false);
             }
+            catch (Exception ex) when (ex is not SqliteException)
+            {
+                // A bug must not stop the writer: later batches and flushes still need it.
+                _lastError = ex.Message;
+                Interlocked.Add(ref _discarded, batch.Count);
+                LogWriteFailed(_logger, batch.Count, ex);
+            }
             finally
             {
                 _buffer.Release(batch);
