@@ -270,7 +270,7 @@ public sealed class AlarmEngine
             e.State = s.State;
             e.InAlarm = s.InAlarm;
             e.Acknowledged = s.Acknowledged;
-            e.Value = s.Value;
+            e.Value = s.Value ?? double.NaN;
             e.SinceMs = s.SinceMs;
             e.ActivatedMs = s.ActivatedMs;
             e.ShelvedUntilMs = s.ShelvedUntilMs;
@@ -463,15 +463,17 @@ public sealed class AlarmEngine
         e.SinceMs = now;
         var d = e.Definition;
         var message = e.Detail.Length > 0 ? $"{d.Message} ({e.Detail})" : d.Message;
-        return new AlarmTransition(now, d.Id, d.SiteId, d.SiloId, d.Condition, d.Priority, from, to, e.Value, d.Setpoint, d.Unit, by, comment, message, duringFlood);
+        return new AlarmTransition(now, d.Id, d.SiteId, d.SiloId, d.Condition, d.Priority, from, to, Known(e.Value), d.Setpoint, d.Unit, by, comment, message, duringFlood);
     }
 
     private static AlarmState StateOf(Entry e)
     {
         var d = e.Definition;
-        return new AlarmState(d.Id, d.SiteId, d.SiloId, d.Condition, d.Priority, e.State, e.InAlarm, e.Acknowledged, e.Value, d.Setpoint, d.Unit,
+        return new AlarmState(d.Id, d.SiteId, d.SiloId, d.Condition, d.Priority, e.State, e.InAlarm, e.Acknowledged, Known(e.Value), d.Setpoint, d.Unit,
             e.SinceMs, e.ActivatedMs, e.ShelvedUntilMs, e.ShelvedBy, e.ShelveReason, e.State == AlarmStateName.OutOfService, d.Message);
     }
+
+    private static double? Known(double value) => double.IsFinite(value) ? value : null;
 
     private Entry Find(string alarmId)
     {

@@ -78,6 +78,7 @@ public sealed record AlarmDefinition(
 public readonly record struct ConditionValue(string Condition, double Value, DischargeState SiloState, string Detail = "");
 
 /// <summary>One change of an alarm's state: the journal entry and the published event.</summary>
+/// <param name="Value">The condition's last known value; null when none yet.</param>
 /// <param name="By">"system", or the user who acknowledged, shelved, reset or took it out of service.</param>
 /// <param name="DuringFlood">True for activations inside an alarm flood: journal them, but publish the flood transition instead.</param>
 public sealed record AlarmTransition(
@@ -89,7 +90,7 @@ public sealed record AlarmTransition(
     int Priority,
     AlarmStateName From,
     AlarmStateName To,
-    double Value,
+    double? Value,
     double Setpoint,
     string Unit,
     string By,
@@ -110,7 +111,7 @@ public sealed record AlarmState(
     AlarmStateName State,
     bool InAlarm,
     bool Acknowledged,
-    double Value,
+    double? Value,
     double Setpoint,
     string Unit,
     long SinceMs,

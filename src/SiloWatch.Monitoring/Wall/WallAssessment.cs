@@ -83,12 +83,13 @@ public sealed record WallSnapshot(
     DischargeState State,
     long SinceMs,
     long OnsetMs,
-    double BaselineMassKg,
+    double? BaselineMassKg,
     IReadOnlyList<GaugeSnapshot> Gauges)
 {
     public const int CurrentVersion = 1;
 }
 
-/// <param name="BaselineStrainMicro">NaN when the gauge had no baseline.</param>
-/// <param name="ZeroMicro">Gauge zero from a tare, NaN when none.</param>
-public sealed record GaugeSnapshot(string SensorId, double BaselineStrainMicro, double BaselineTemperatureC, double ThermalResidualMicroPerK, double ZeroMicro);
+/// <param name="BaselineStrainMicro">Null when the gauge had no baseline.</param>
+/// <param name="ThermalVarianceK2">Temperature variance behind the learned residual (its weight on restore).</param>
+/// <param name="ZeroMicro">Gauge zero from a tare, null when none.</param>
+public sealed record GaugeSnapshot(string SensorId, double? BaselineStrainMicro, double? BaselineTemperatureC, double ThermalResidualMicroPerK, double ThermalVarianceK2, double? ZeroMicro);

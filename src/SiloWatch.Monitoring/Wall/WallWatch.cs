@@ -46,6 +46,9 @@ public sealed class WallWatch
     private readonly double _thicknessM;
     private readonly int[] _supportOfCell;
     private readonly double _supportCapacityKn;
+    private readonly string _overfillKey;
+    private readonly string _supportKey;
+    private readonly string _idleKey;
 
     private SiloModel _model;
     private int _historyCount;
@@ -69,12 +72,15 @@ public sealed class WallWatch
         _poisson = g.WallPoissonRatio;
         _thicknessM = g.WallThicknessM;
         _supportCapacityKn = silo.Options.Weighing.SupportCapacityKn;
+        _overfillKey = ConditionKeys.Overfill(silo.SiloId);
+        _supportKey = ConditionKeys.SupportOverload(silo.SiloId);
+        _idleKey = ConditionKeys.IdleMassChange(silo.SiloId);
 
         var sensors = silo.Options.Sensors;
         _slots = new SensorSlot[sensors.Count];
         for (var i = 0; i < sensors.Count; i++)
         {
-            _slots[i] = new SensorSlot(sensors[i]);
+            _slots[i] = new SensorSlot(sensors[i]) { BadKey = ConditionKeys.SensorBad(silo.SiloId, sensors[i].Id) };
         }
 
         for (var i = 0; i < sensors.Count; i++)
@@ -108,9 +114,14 @@ public sealed class WallWatch
                 [.. gauges.Select(x => x.SensorIndex)],
                 [.. gauges.Select(x => x.Index)],
                 new RingHarmonicFit([.. gauges.Select(x => x.AngleDeg)], options.MaxHarmonic, options.MaxConditionNumber),
-                [.. gauges.Select(_ => new ThermalSensitivity(options.ThermalResidualPriorMicroPerK, options.ThermalMinVarianceK2, tau, options.ThermalMaxResidualMicroPerK))],
+                [.. gauges.Select(_ => new ThermalSensitivity(options.ThermalResidualPriorMicroPerK, options.ThermalPriorWeightK2, tau, options.ThermalMaxResidualMicroPerK))],
                 kind == SensorKind.AxialStrain ? -1.0 : 1.0,
-                mixed ? "ring mixes axial and hoop gauges: analysed as " + kind : "");
+                mixed ? "ring mixes axial and hoop gauges: analysed as " + kind : "")
+            {
+                A1Key = ConditionKeys.AsymmetryA1(silo.SiloId, group.Key),
+                A2Key = ConditionKeys.AsymmetryA2(silo.SiloId, group.Key),
+                ExcessKey = ConditionKeys.Excess(silo.SiloId, group.Key),
+            };
             rings.Add(ring);
         }
 
@@ -280,24 +291,24 @@ public sealed class WallWatch
         {
             var ring = _rings[r];
             rings[r] = AssessRing(ring, nowMs, discharging, double.IsFinite(massKg) ? fill : null, double.IsFinite(massKg) ? disch : null);
-            var detail = double.IsFinite(rings[r].AsymmetryDirectionDeg) ? $"ring {ring.Id}, highest load rise toward {rings[r].AsymmetryDirectionDeg:0}°" : $"ring {ring.Id}";
-            conditions.Add(new ConditionValue(ConditionKeys.AsymmetryA1(SiloId, ring.Id), rings[r].A1Ratio, state, detail));
-            conditions.Add(new ConditionValue(ConditionKeys.AsymmetryA2(SiloId, ring.Id), rings[r].A2Ratio, state, $"ring {ring.Id}"));
-            conditions.Add(new ConditionValue(ConditionKeys.Excess(SiloId, ring.Id), rings[r].MeasuredOverExpected, state, $"ring {ring.Id}"));
+            var detail = double.IsFinite(rings[r].AsymmetryDirectionDeg) ? $"ring {ring.Id}, highest load rise toward {rings[r].AsymmetryDirectionDeg:0}°" : ring.Detail;
+            conditions.Add(new ConditionValue(ring.A1Key, rings[r].A1Ratio, state, detail));
+            conditions.Add(new ConditionValue(ring.A2Key, rings[r].A2Ratio, state, ring.Detail));
+            conditions.Add(new ConditionValue(ring.ExcessKey, rings[r].MeasuredOverExpected, state, ring.Detail));
             if (discharging)
             {
                 ring.TrackPeak(rings[r]);
             }
         }
 
-        conditions.Add(new ConditionValue(ConditionKeys.Overfill(SiloId), inventory is { Quality: not Quality.Bad } ? inventory.PercentFull : double.NaN, state));
-        conditions.Add(new ConditionValue(ConditionKeys.SupportOverload(SiloId), SupportLoadPercent(nowMs, massKg), state));
-        conditions.Add(new ConditionValue(ConditionKeys.IdleMassChange(SiloId), IdleMassChangeKgPerMin(nowMs, massKg), state));
+        conditions.Add(new ConditionValue(_overfillKey, inventory is { Quality: not Quality.Bad } ? inventory.PercentFull : double.NaN, state));
+        conditions.Add(new ConditionValue(_supportKey, SupportLoadPercent(nowMs, massKg), state));
+        conditions.Add(new ConditionValue(_idleKey, IdleMassChangeKgPerMin(nowMs, massKg), state));
         for (var i = 0; i < _slots.Length; i++)
         {
             var s = _slots[i];
             var value = s.Quality is null ? double.NaN : s.Quality == Quality.Bad ? 1.0 : 0.0;
-            conditions.Add(new ConditionValue(ConditionKeys.SensorBad(SiloId, s.Options.Id), value, state, s.Reason));
+            conditions.Add(new ConditionValue(s.BadKey, value, state, s.Reason));
         }
 
         return new WallAssessment(
@@ -323,14 +334,16 @@ public sealed class WallWatch
             for (var k = 0; k < ring.Sensors.Length; k++)
             {
                 var slot = _slots[ring.Sensors[k]];
-                gauges.Add(new GaugeSnapshot(slot.Options.Id, _baselineValid ? ring.BaselineStrain[k] : double.NaN, ring.BaselineTemperature[k],
-                    ring.Thermal[k].MicroPerK, slot.ZeroMicro));
+                gauges.Add(new GaugeSnapshot(slot.Options.Id, _baselineValid ? Finite(ring.BaselineStrain[k]) : null, Finite(ring.BaselineTemperature[k]),
+                    ring.Thermal[k].MicroPerK, Math.Max(ring.Thermal[k].VarianceK2, 0), Finite(slot.ZeroMicro)));
             }
         }
 
         return new WallSnapshot(WallSnapshot.CurrentVersion, SiteId, SiloId, nowMs, _state.State, _state.SinceMs, _state.OnsetMs,
-            _baselineValid ? _baselineMassKg : double.NaN, gauges);
+            _baselineValid ? Finite(_baselineMassKg) : null, gauges);
     }
+
+    private static double? Finite(double x) => double.IsFinite(x) ? x : null;
 
     /// <summary>Restores a snapshot; returns what could not be restored (empty when all was).</summary>
     public IReadOnlyList<string> Restore(WallSnapshot snapshot)
@@ -363,21 +376,18 @@ public sealed class WallWatch
                     continue;
                 }
 
-                ring.BaselineStrain[k] = g.BaselineStrainMicro;
-                ring.BaselineTemperature[k] = g.BaselineTemperatureC;
-                ring.Thermal[k].Restore(g.ThermalResidualMicroPerK, _options.ThermalMinVarianceK2);
-                slot.ZeroMicro = g.ZeroMicro;
-                anyBaseline |= double.IsFinite(g.BaselineStrainMicro);
+                ring.BaselineStrain[k] = g.BaselineStrainMicro ?? double.NaN;
+                ring.BaselineTemperature[k] = g.BaselineTemperatureC ?? double.NaN;
+                ring.Thermal[k].Restore(g.ThermalResidualMicroPerK, g.ThermalVarianceK2);
+                slot.ZeroMicro = g.ZeroMicro ?? double.NaN;
+                anyBaseline |= g.BaselineStrainMicro is not null;
             }
         }
 
         _baselineValid = anyBaseline && snapshot.State is DischargeState.Discharging or DischargeState.Settling;
-        _baselineMassKg = snapshot.BaselineMassKg;
+        _baselineMassKg = snapshot.BaselineMassKg ?? double.NaN;
         _dischargeOnsetMs = snapshot.OnsetMs;
-        if (_baselineValid && double.IsFinite(_baselineMassKg))
-        {
-            _model.ExpectedStrains(_model.StateAtMass(_baselineMassKg, FlowMode.Filling), _expectedFilling);
-        }
+        SetBaselineExpectations();
 
         return problems;
     }
@@ -487,7 +497,9 @@ public sealed class WallWatch
             var tempOrder = ring.Fit.Fit(dTemp, both, _coefficients);
             tempH = RingHarmonicFit.Harmonics(_coefficients, tempOrder);
 
-            var floor = Math.Max(_options.MinMeanMicro, _options.MinMeanFraction * Math.Abs(ring.ExpectedMeanAtBaseline));
+            var floor = double.IsFinite(ring.ExpectedMeanAtBaseline)
+                ? Math.Max(_options.MinMeanMicro, _options.MinMeanFraction * Math.Abs(ring.ExpectedMeanAtBaseline))
+                : _options.MinMeanMicro;
             var divisor = double.IsFinite(expectedMean) ? Math.Max(Math.Abs(expectedMean), floor) : double.NaN;
             if (changeOrder >= 1)
             {
@@ -628,6 +640,11 @@ public sealed class WallWatch
         _baselineMassKg = masses.Length > 0 ? masses.Average() : massKg;
         _baselineValid = any;
         _dischargeOnsetMs = onsetMs;
+        SetBaselineExpectations();
+    }
+
+    private void SetBaselineExpectations()
+    {
         if (double.IsFinite(_baselineMassKg))
         {
             _model.ExpectedStrains(_model.StateAtMass(_baselineMassKg, FlowMode.Filling), _expectedFilling);
@@ -641,6 +658,10 @@ public sealed class WallWatch
         else
         {
             Array.Fill(_expectedFilling, double.NaN);
+            foreach (var ring in _rings)
+            {
+                ring.ExpectedMeanAtBaseline = double.NaN;
+            }
         }
     }
 
@@ -755,6 +776,7 @@ public sealed class WallWatch
         public int TemperatureSensor = -1;
         public double ZeroMicro = double.NaN;
         public string Reason = "";
+        public string BadKey = "";
     }
 
     private sealed class HistoryEntry(int sensors)
@@ -785,6 +807,14 @@ public sealed class WallWatch
         public double Sign { get; } = sign;
 
         public string Note { get; } = note;
+
+        public string A1Key { get; init; } = "";
+
+        public string A2Key { get; init; } = "";
+
+        public string ExcessKey { get; init; } = "";
+
+        public string Detail { get; } = "ring " + id;
 
         public double[] BaselineStrain { get; } = [.. sensors.Select(_ => double.NaN)];
 

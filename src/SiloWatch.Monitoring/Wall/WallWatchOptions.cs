@@ -82,7 +82,11 @@ public sealed class WallWatchOptions
     /// <summary>Time constant of that learning. Default 12 h.</summary>
     public TimeSpan ThermalLearningTime { get; set; } = TimeSpan.FromHours(12);
 
-    /// <summary>Temperature variance (K²) the learning needs before its value replaces the prior. Default 4.</summary>
+    /// <summary>Weight of the prior, as a temperature variance (K²) seen: the learned slope takes over as the gauge's own variance exceeds it. Default 0.5.</summary>
+    [Range(0.0, 1e4)]
+    public double ThermalPriorWeightK2 { get; set; } = 0.5;
+
+    /// <summary>Temperature variance (K²) the learning needs before it counts as learned (reported). Default 4.</summary>
     [Range(0.0, 1e4)]
     public double ThermalMinVarianceK2 { get; set; } = 4;
 
