@@ -13,6 +13,7 @@ command -v victoria-metrics >/dev/null 2>&1 || [ -x /usr/bin/victoria-metrics ] 
 [ -d /usr/share/fonts/truetype/dejavu ] || need_pkgs+=(fonts-dejavu-core)
 command -v openssl >/dev/null 2>&1 || need_pkgs+=(openssl)
 command -v curl >/dev/null 2>&1 || need_pkgs+=(curl)
+command -v chromium >/dev/null 2>&1 || need_pkgs+=(chromium)
 if [ ${#need_pkgs[@]} -gt 0 ]; then
   echo "tests/run.sh: installing ${need_pkgs[*]}"
   SUDO=""; [ "$(id -u)" -ne 0 ] && SUDO="sudo"
@@ -66,6 +67,7 @@ export SILOWATCH_TEST_MQTT_PORT=$MQTT_PORT
 export SILOWATCH_TEST_VM_URL="http://127.0.0.1:$VM_PORT"
 export SILOWATCH_TEST_MOSQUITTO_BIN=$(command -v mosquitto)
 export SILOWATCH_TEST_VM_BIN=$(command -v victoria-metrics)
+export SILOWATCH_TEST_CHROMIUM=$(command -v chromium)
 export SILOWATCH_REQUIRE_SERVERS=1
 export DOTNET_CLI_TELEMETRY_OPTOUT=1 DOTNET_NOLOGO=1
 
