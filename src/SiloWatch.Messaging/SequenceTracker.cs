@@ -49,7 +49,7 @@ internal sealed class SequenceTracker(int capacity)
 
         // seq 0 below the highest is a publisher that restarted (counters start at 0), even inside
         // the window; a redelivered seq 0 is then taken for a restart, which loses nothing.
-        if (back >= Window || seq == 0)
+        if (back >= Window || (seq == 0 && back > 0))
         {
             entry.Highest = seq;
             entry.Seen = 1;

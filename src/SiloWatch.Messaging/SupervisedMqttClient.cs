@@ -64,6 +64,7 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
     private long _connects;
     private int _started;
     private int _stopping;
+    private int _dropQuietly;
     private int _disposed;
 
     public SupervisedMqttClient(MqttOptions options, string instanceId, IReadOnlyList<string> subscriptions,
@@ -370,13 +371,23 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
                 return false;
             }
 
-            if (!result.IsSessionPresent || !_subscribedSinceStart)
+            try
             {
-                await SubscribeAllAsync(result.IsSessionPresent, ct).ConfigureAwait(false);
-            }
+                if (!result.IsSessionPresent || !_subscribedSinceStart)
+                {
+                    await SubscribeAllAsync(result.IsSessionPresent, ct).ConfigureAwait(false);
+                }
 
-            await PublishCoreAsync(_statusTopic, StatusPayload("online", null), retain: true,
-                MqttQualityOfServiceLevel.AtLeastOnce, ct).ConfigureAwait(false);
+                await PublishCoreAsync(_statusTopic, StatusPayload("online", null), retain: true,
+                    MqttQualityOfServiceLevel.AtLeastOnce, ct).ConfigureAwait(false);
+            }
+            catch (Exception ex) when (ex is MqttCommunicationException or MqttPublishException or MqttClientNotConnectedException)
+            {
+                // Connected but not subscribed would look healthy and receive nothing: start over.
+                ReportProblem("after-connect", LogLevel.Warning, null, $"subscribing or publishing the status failed after connecting: {ex.Message}");
+                await DropConnectionAsync(wakeSupervisor: false).ConfigureAwait(false);
+                return false;
+            }
 
             var connects = Interlocked.Increment(ref _connects);
             if (_lastProblem is not null)
@@ -447,19 +458,35 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
             {
                 // A half-open connection can look connected: drop it, the loop reconnects.
                 ReportProblem("ping", LogLevel.Warning, null, $"the MQTT broker {_host}:{_options.Port} did not answer a ping; reconnecting");
-                try
-                {
-                    await _client.DisconnectAsync(new MqttClientDisconnectOptions(), CancellationToken.None).ConfigureAwait(false);
-                }
-                catch (MqttCommunicationException)
-                {
-                    // Already gone.
-                }
+                await DropConnectionAsync(wakeSupervisor: true).ConfigureAwait(false);
             }
         }
         finally
         {
             _gate.Release();
+        }
+    }
+
+    /// <summary>
+    /// Closes a connection that is not usable (caller holds the gate). With <paramref name="wakeSupervisor"/>
+    /// false the reconnect waits for the backoff, so a broker that keeps refusing a step is not hammered.
+    /// </summary>
+    private async Task DropConnectionAsync(bool wakeSupervisor)
+    {
+        Volatile.Write(ref _dropQuietly, wakeSupervisor ? 0 : 1);
+        try
+        {
+            using var timeout = new CancellationTokenSource(_options.ConnectTimeout, _time);
+            await _client.DisconnectAsync(new MqttClientDisconnectOptions { Reason = MqttClientDisconnectOptionsReason.NormalDisconnection, SessionExpiryInterval = SessionExpirySeconds },
+                timeout.Token).ConfigureAwait(false);
+        }
+        catch (Exception ex) when (ex is MqttCommunicationException or OperationCanceledException)
+        {
+            // Already gone.
+        }
+        finally
+        {
+            Volatile.Write(ref _dropQuietly, 0);
         }
     }
 
@@ -634,8 +661,14 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
             return Task.CompletedTask;
         }
 
-        Interlocked.Exchange(ref _connected, NewSignal());
-        if (Volatile.Read(ref _stopping) != 0)
+        // Re-arm the "connected" signal only if it was set: waiters on an unset one must keep it.
+        var connected = Volatile.Read(ref _connected);
+        if (connected.Task.IsCompleted)
+        {
+            Interlocked.CompareExchange(ref _connected, NewSignal(), connected);
+        }
+
+        if (Volatile.Read(ref _stopping) != 0 || Volatile.Read(ref _dropQuietly) != 0)
         {
             return Task.CompletedTask;
         }

@@ -198,6 +198,58 @@ public sealed class SupervisedMqttClientTests(ITestOutputHelper output) : IAsync
     }
 
     [Fact]
+    public async Task WhenTheBrokerDropsTheConnectionOnSubscribeTheClientStartsOverUntilSubscribed()
+    {
+        var topic = _topics.Command("brackenford", "S1");
+        var drops = 0;
+        Broker.Server.InterceptingSubscriptionAsync += e =>
+        {
+            if (e.ClientId == "flaky-sub" && Interlocked.Increment(ref drops) <= 2)
+            {
+                e.CloseConnection = true;
+            }
+
+            return Task.CompletedTask;
+        };
+        var (client, received, log) = _env.Client(MqttTestEnvironment.Options(Broker.Port, "flaky-sub"), "flaky-sub", topic);
+        var (publisher, _, _) = _env.Client(MqttTestEnvironment.Options(Broker.Port, "flaky-pub"), "flaky-pub");
+        await client.StartAsync(CancellationToken.None);
+        await publisher.StartAsync(CancellationToken.None);
+        await MqttTestEnvironment.ConnectedAsync(client);
+        await MqttTestEnvironment.ConnectedAsync(publisher);
+
+        await MqttTestEnvironment.PublishAsync(publisher, topic, "finally");
+
+        Assert.Equal("finally", (await MqttTestEnvironment.NextAsync(received, m => m.Topic == topic)).Payload);
+        Assert.Equal(3, drops);
+        Assert.Equal(1, log.Count(LogLevel.Warning, "subscribing or publishing the status failed"));
+    }
+
+    [Fact]
+    public async Task ARefusedSubscriptionIsLoggedAsAnError()
+    {
+        Broker.Server.InterceptingSubscriptionAsync += e =>
+        {
+            if (e.ClientId == "not-allowed")
+            {
+                e.Response.ReasonCode = MqttSubscribeReasonCode.NotAuthorized;
+            }
+
+            return Task.CompletedTask;
+        };
+        var topic = _topics.Command("brackenford", "C1");
+        var (client, _, log) = _env.Client(MqttTestEnvironment.Options(Broker.Port, "not-allowed"), "not-allowed", topic);
+
+        await client.StartAsync(CancellationToken.None);
+        await MqttTestEnvironment.ConnectedAsync(client);
+
+        var error = Assert.Single(log.Errors);
+        Assert.Contains(topic, error.Message, StringComparison.Ordinal);
+        Assert.Contains("NotAuthorized", error.Message, StringComparison.Ordinal);
+        Assert.Equal(1, log.Count(LogLevel.Information, "subscribed to 0 of 1 filters"));
+    }
+
+    [Fact]
     public async Task WhileTheBrokerIsDownTheNextAttemptWaitsForTheBackoffDelay()
     {
         var time = new FakeTimeProvider(DemoPlant.Now);

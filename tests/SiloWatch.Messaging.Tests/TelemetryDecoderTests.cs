@@ -285,6 +285,15 @@ public sealed class TelemetryDecoderTests
     }
 
     [Fact]
+    public void ARepeatedFirstMessageWithSeqZeroIsADuplicate()
+    {
+        Decode(Message("gw-1", 0));
+
+        Assert.Equal(SequenceStatus.Duplicate, Decode(Message("gw-1", 0)).Sequence);
+        Assert.Equal(SequenceStatus.InOrder, Decode(Message("gw-1", 1)).Sequence);
+    }
+
+    [Fact]
     public void TheDuplicateWindowCoversTheLast64Sequences()
     {
         for (var seq = 1; seq <= 100; seq++)
