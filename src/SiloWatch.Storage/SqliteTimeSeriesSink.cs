@@ -120,46 +120,11 @@ public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
     /// </summary>
     public IReadOnlyList<StoredSample> Query(string measurement, string field, IEnumerable<KeyValuePair<string, string>>? tags, long fromMs, long toMs)
     {
-        var wanted = tags?.ToList() ?? [];
-        var result = new List<StoredSample>();
         lock (_db)
         {
             ObjectDisposedException.ThrowIf(_disposed, this);
-            var series = new List<(long Id, string Tags)>();
-            using (var find = _connection.CreateCommand())
-            {
-                find.CommandText = "SELECT id, tags FROM series WHERE measurement = $m AND field = $f ORDER BY tags";
-                find.Parameters.AddWithValue("$m", measurement);
-                find.Parameters.AddWithValue("$f", field);
-                using var reader = find.ExecuteReader();
-                while (reader.Read())
-                {
-                    var tagSet = reader.GetString(1);
-                    var parsed = TagSetParser.Parse(tagSet);
-                    if (wanted.All(w => parsed.Contains(w)))
-                    {
-                        series.Add((reader.GetInt64(0), tagSet));
-                    }
-                }
-            }
-
-            using var read = _connection.CreateCommand();
-            read.CommandText = "SELECT ts_ms, value FROM samples WHERE series_id = $s AND ts_ms >= $from AND ts_ms < $to ORDER BY ts_ms";
-            var pS = read.Parameters.Add("$s", SqliteType.Integer);
-            read.Parameters.AddWithValue("$from", fromMs);
-            read.Parameters.AddWithValue("$to", toMs);
-            foreach (var (id, tagSet) in series)
-            {
-                pS.Value = id;
-                using var reader = read.ExecuteReader();
-                while (reader.Read())
-                {
-                    result.Add(new StoredSample(measurement, tagSet, field, reader.GetInt64(0), reader.GetDouble(1)));
-                }
-            }
+            return EmbeddedSeriesReader.Query(_connection, measurement, field, tags, fromMs, toMs);
         }
-
-        return result;
     }
 
     public async ValueTask DisposeAsync()

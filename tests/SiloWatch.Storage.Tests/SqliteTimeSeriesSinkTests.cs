@@ -91,4 +91,22 @@ public sealed class SqliteTimeSeriesSinkTests : IDisposable
 
         Assert.Equal([2.0], sink.Query("m", "v", null, 0, long.MaxValue).Select(x => x.Value));
     }
+
+    [Fact]
+    public async Task AnotherReaderSeesTheSeriesAndSamplesWhileTheSinkIsOpen()
+    {
+        var s = Some.SensorSeries("reader", "C1", "T-R1-000");
+        await using var sink = Open();
+        sink.Write(s, Base, [21.5, 21.4, 0]);
+        sink.Write(s, Base + 1000, [21.7, 21.6, 0]);
+        await sink.FlushAsync(CancellationToken.None);
+
+        using var reader = new EmbeddedSeriesReader(sink.Path);
+
+        var listed = reader.ListSeries(Measurements.Sensor);
+        Assert.Equal(SensorFields.All.Order(StringComparer.Ordinal), listed.Select(x => x.Field));
+        Assert.All(listed, x => Assert.Equal(s.Tags, x.Tags));
+        Assert.Equal([21.4, 21.6], reader.Query(Measurements.Sensor, SensorFields.Value, [new(Tags.Silo, "C1")], Base, Base + 2000).Select(x => x.Value));
+        Assert.Throws<FileNotFoundException>(() => new EmbeddedSeriesReader(_dir.File("absent.db")));
+    }
 }
