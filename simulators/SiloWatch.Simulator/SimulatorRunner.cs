@@ -87,6 +87,16 @@ public static class SimulatorRunner
             throw new ArgumentOutOfRangeException(nameof(options), options.Speed, $"Speed must be between 1 and {MaxSpeed}");
         }
 
+        if (options.BrokerPort is < 1 or > 65535)
+        {
+            throw new ArgumentOutOfRangeException(nameof(options), options.BrokerPort, "BrokerPort must be 1..65535");
+        }
+
+        if (string.IsNullOrWhiteSpace(options.TopicPrefix) || options.TopicPrefix.IndexOfAny(['#', '+']) >= 0 || options.TopicPrefix.EndsWith('/'))
+        {
+            throw new ArgumentException($"TopicPrefix '{options.TopicPrefix}' must be a topic level without wildcards or a trailing '/'", nameof(options));
+        }
+
         var materials = MaterialReader.LoadFile(options.MaterialsPath);
         var (plant, findings) = PlantLoader.LoadFile(options.PlantPath, materials.Keys.ToHashSet(StringComparer.Ordinal));
         if (findings.Count > 0)
