@@ -21,6 +21,7 @@ internal sealed partial class DiskSpool : IDisposable
     private const string SegmentExtension = ".lp";
     private const string PositionFileName = "replay.pos";
     private const string RejectedFileName = "rejected.lp";
+    private const string LockFileName = ".lock";
 
     private readonly Lock _lock = new();
     private readonly string _directory;
@@ -35,6 +36,7 @@ internal sealed partial class DiskSpool : IDisposable
     private byte[]? _headCache;
     private long _headCacheSegment = -1;
     private long _discardedPoints;
+    private readonly FileStream _directoryLock;
 
     public DiskSpool(string directory, long maxBytes, ILogger logger)
     {
@@ -43,7 +45,26 @@ internal sealed partial class DiskSpool : IDisposable
         _segmentBytes = Math.Clamp(maxBytes / 16, 4 * 1024, 16 * 1024 * 1024);
         _logger = logger;
         System.IO.Directory.CreateDirectory(_directory);
-        Recover();
+        try
+        {
+            // Two writers on one spool would interleave and replay each other's points: refuse the second.
+            _directoryLock = new FileStream(Path.Combine(_directory, LockFileName), FileMode.OpenOrCreate, FileAccess.ReadWrite, FileShare.None);
+        }
+        catch (IOException ex)
+        {
+            throw new InvalidOperationException(
+                $"Storage:TimeSeries:SpoolDirectory = '{_directory}': in use by another SiloWatch process; give each instance its own spool", ex);
+        }
+
+        try
+        {
+            Recover();
+        }
+        catch
+        {
+            _directoryLock.Dispose();
+            throw;
+        }
     }
 
     /// <summary>Bytes the spool occupies on disk (never above the maximum).</summary>
@@ -199,6 +220,7 @@ internal sealed partial class DiskSpool : IDisposable
         lock (_lock)
         {
             CloseTailLocked();
+            _directoryLock.Dispose();
         }
     }
 

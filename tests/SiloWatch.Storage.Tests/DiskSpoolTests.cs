@@ -104,4 +104,14 @@ public sealed class DiskSpoolTests : IDisposable
         Assert.Equal(5000, spool.DiscardedPoints);
         Assert.True(spool.IsEmpty);
     }
+
+    [Fact]
+    public void ASecondWriterOnTheSameSpoolDirectoryIsRefused()
+    {
+        using var first = new DiskSpool(_dir.Path, 1 << 20, _log);
+
+        var ex = Assert.Throws<InvalidOperationException>(() => new DiskSpool(_dir.Path, 1 << 20, _log));
+
+        Assert.Contains("SpoolDirectory", ex.Message, StringComparison.Ordinal);
+    }
 }
