@@ -222,7 +222,10 @@ internal static class ProfileCommand
         o.WriteLine($"weighed load ({model.Silo.Weighing.Arrangement}, incl. structure): {F(loads.WeighedLoadKn, "0.0")} kN");
         if (reactions.Length > 0)
         {
-            o.WriteLine("contents' support reactions, kN (rigid base [D]): " + string.Join(", ", reactions.Select((r, i) => $"{i + 1}{(model.IsSupportWeighed(i) ? "*" : "")} {F(r, "0.0")}")) + "   (* weighed)");
+            var label = model.Silo.Weighing.Arrangement == WeighingArrangement.FloorOnly
+                ? "floor cells, kN (equal shares of the floor load)"
+                : "contents' support reactions, kN (rigid base [D])";
+            o.WriteLine($"{label}: " + string.Join(", ", reactions.Select((r, i) => $"{i + 1}{(model.IsSupportWeighed(i) ? "*" : "")} {F(r, "0.0")}")) + "   (* weighed)");
         }
         else if (reactionsNote is not null)
         {

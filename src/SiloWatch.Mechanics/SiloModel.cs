@@ -388,6 +388,8 @@ public sealed class SiloModel
     /// <summary>
     /// Contents' reaction at each support (index 0 = support 1), rigid base, n ≥ 3 supports on a circle:
     /// R_i = W/n·[1 + 2(e/R)·cos(θ_i − θ_e)] [D]. A negative value means uplift of that support.
+    /// For <see cref="WeighingArrangement.FloorOnly"/> the supports are the floor's cells and share the
+    /// floor load equally: where the floor pressure's centre lies under an eccentric fill is not modelled.
     /// </summary>
     public void SupportReactionsKn(in FillState state, Span<double> reactionsKn)
     {
@@ -397,9 +399,15 @@ public sealed class SiloModel
             throw new ArgumentException($"need room for {SupportCount} reactions", nameof(reactionsKn));
         }
 
+        var n = SupportCount;
+        if (Silo.Weighing.Arrangement == WeighingArrangement.FloorOnly)
+        {
+            reactionsKn[..n].Fill(Expect(state).FloorLoadKn / n);
+            return;
+        }
+
         var w = _gamma * state.VolumeM3;
         var (c, s) = EccentricityVector(state);
-        var n = SupportCount;
         for (var i = 0; i < n; i++)
         {
             reactionsKn[i] = w / n * (1 + (2 * ((c * _supportCos[i]) + (s * _supportSin[i]))));

@@ -90,6 +90,9 @@ public sealed class SupportReactionTests
         var f = floorOnly.Expect(floorOnly.StateAtLevel(15));
         Assert.Equal(f.FloorLoadKn + structure, f.WeighedLoadKn, 9);
         Assert.True(f.FloorLoadKn < 0.5 * f.ContentsWeightKn); // a slender silo's floor carries well under half
+        var cells = new double[3];
+        floorOnly.SupportReactionsKn(floorOnly.StateAtLevel(15), cells);
+        Assert.All(cells, c => Assert.Equal(f.FloorLoadKn / 3, c, 9));
 
         var hopperSilo = TestSilos.WithLoadCells(TestSilos.Circular(8, 24, HopperShape.Conical, 30, 0.6), WeighingArrangement.FloorOnly, 3, 2.0, 1, 2, 3);
         var hopper = SiloModel.Create(hopperSilo, TestSilos.Library().Get("cement"));
