@@ -51,10 +51,12 @@ public sealed class MosquittoTests(ITestOutputHelper output) : IAsyncLifetime
         var (second, secondReceived, secondLog) = _env.Client(MqttTestEnvironment.Options(port, subscriberId), subscriberId, topic);
         await second.StartAsync(CancellationToken.None);
         await MqttTestEnvironment.ConnectedAsync(second);
+        // QoS 1 is at-least-once: if the first session's PUBACK of "live" had not left before its
+        // DISCONNECT, the broker rightly delivers "live" again; only the backlog is checked here.
         for (var i = 1; i <= 5; i++)
         {
             Assert.Equal("away-" + i.ToString(CultureInfo.InvariantCulture),
-                (await MqttTestEnvironment.NextAsync(secondReceived, m => m.Topic == topic)).Payload);
+                (await MqttTestEnvironment.NextAsync(secondReceived, m => m.Topic == topic && m.Payload != "live")).Payload);
         }
 
         Assert.Equal(1, secondLog.Count(Microsoft.Extensions.Logging.LogLevel.Information, "(session present: True, reconnects: 0)"));
