@@ -121,7 +121,7 @@ public static class SimulatorCommandLine
             options.MaterialsPath = m;
         }
 
-        options.Speed = o.TryGetValue("speed", out var speed) ? Number(speed, "--speed") : 1;
+        options.Speed = o.TryGetValue("speed", out var speed) ? Speed(speed) : 1;
         options.Seed = o.TryGetValue("seed", out var seed) ? int.Parse(seed, NumberStyles.Integer, CultureInfo.InvariantCulture) : 0;
         if (o.TryGetValue("start", out var start))
         {
@@ -145,7 +145,7 @@ public static class SimulatorCommandLine
         var options = new ReplayOptions
         {
             FilePath = o.TryGetValue("file", out var f) ? f : throw new ArgumentException("replay needs --file FILE.csv"),
-            Speed = o.TryGetValue("speed", out var speed) ? Number(speed, "--speed") : 1,
+            Speed = o.TryGetValue("speed", out var speed) ? Speed(speed) : 1,
             TopicPrefix = o.GetValueOrDefault("prefix", "silowatch"),
             Username = o.GetValueOrDefault("user"),
             Password = o.GetValueOrDefault("password"),
@@ -164,6 +164,12 @@ public static class SimulatorCommandLine
                 throw new ArgumentException($"unknown option --{k}");
             }
         }
+    }
+
+    private static double Speed(string text)
+    {
+        var v = Number(text, "--speed");
+        return v is >= 1 and <= SimulatorRunner.MaxSpeed ? v : throw new ArgumentException($"--speed {text} must be between 1 and {SimulatorRunner.MaxSpeed}");
     }
 
     private static double Number(string text, string name) =>
