@@ -90,7 +90,8 @@ public sealed class TelemetryDecoder
         var status = SequenceStatus.Absent;
         long missing = 0;
         string? publisher = null;
-        if (message.HasSeq && message.ErrorReason is null or RejectReason.InvalidStructure or RejectReason.TooManySamples)
+        if (message.HasSeq && !message.PublisherInvalid &&
+            message.ErrorReason is null or RejectReason.InvalidStructure or RejectReason.TooManySamples)
         {
             // Without "pub" the seq is tracked under the anonymous publisher "".
             status = _sequences.Track(_publisher.AsSpan(0, message.PublisherLength), message.Seq, out missing, out var tracked);
@@ -525,6 +526,7 @@ public sealed class TelemetryDecoder
     {
         if (reader.TokenType != JsonTokenType.String)
         {
+            message.PublisherInvalid = true;
             message.SetError(RejectReason.InvalidStructure, "\"pub\" must be a string");
             SkipValue(ref reader);
             return;
@@ -555,6 +557,7 @@ public sealed class TelemetryDecoder
 
         if (length is < 1 or > MaxPublisherBytes)
         {
+            message.PublisherInvalid = true;
             message.SetError(RejectReason.InvalidStructure, Invariant($"\"pub\" must be 1-{MaxPublisherBytes} bytes"));
             return;
         }
@@ -802,6 +805,7 @@ public sealed class TelemetryDecoder
         public long Seq;
         public bool HasSeq;
         public bool HasPublisher;
+        public bool PublisherInvalid;
         public int PublisherLength;
         public bool IsBatch;
         public int SampleCount;

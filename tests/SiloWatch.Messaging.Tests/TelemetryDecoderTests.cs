@@ -324,6 +324,16 @@ public sealed class TelemetryDecoderTests
     }
 
     [Fact]
+    public void AMessageWithAnInvalidPublisherDoesNotTouchAnyPublishersSequence()
+    {
+        Decode($$"""{"pub":17,"seq":5,"ts":{{ExampleMs}},"sensor":"LC1","value":1,"unit":"mV/V"}""");
+
+        Assert.Equal(RejectReason.InvalidStructure, _receiver.SingleRejection().Reason);
+        Assert.Equal(SequenceStatus.First, Decode($$"""{"seq":5,"ts":{{ExampleMs}},"sensor":"LC1","value":1,"unit":"mV/V"}""").Sequence);
+        Assert.Equal(SequenceStatus.Duplicate, Decode($$"""{"seq":5,"ts":{{ExampleMs}},"sensor":"LC1","value":1,"unit":"mV/V"}""").Sequence);
+    }
+
+    [Fact]
     public void TheNumberOfTrackedPublishersIsBoundedAndTheLeastRecentlySeenIsForgotten()
     {
         var decoder = new TelemetryDecoder(DemoPlant.S1, new TelemetryDecoderOptions { MaxPublishersPerSilo = 64 });
