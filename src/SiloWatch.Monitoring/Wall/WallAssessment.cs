@@ -46,7 +46,7 @@ public sealed record RingAssessment(
 /// <summary>Peak indices of one ring over a discharge.</summary>
 public sealed record RingPeak(string Ring, double MaxA1Ratio, double DirectionAtMaxDeg, double MaxA2Ratio, double MaxMeasuredOverExpected, double MaxPeakOverMean);
 
-/// <summary>A finished discharge, for the event record.</summary>
+/// <summary>A finished discharge, for the event record: from the onset to the end of the flow (entry into settling); the rate is negative.</summary>
 public sealed record DischargeSummary(
     string SiteId,
     string SiloId,

@@ -57,6 +57,8 @@ public sealed class WallWatch
     private bool _baselineValid;
     private double _baselineMassKg = double.NaN;
     private long _dischargeOnsetMs;
+    private long _dischargeEndMs = long.MinValue;
+    private double _dischargeEndMassKg = double.NaN;
 
     public WallWatch(SiloRef silo, SiloModel model, WallWatchOptions options)
     {
@@ -258,6 +260,12 @@ public sealed class WallWatch
                         t.Break();
                     }
                 }
+            }
+
+            if (change.From == DischargeState.Discharging && change.To == DischargeState.Settling)
+            {
+                _dischargeEndMs = nowMs;
+                _dischargeEndMassKg = massKg;
             }
 
             if (change.From == DischargeState.Settling && change.To != DischargeState.Discharging && _baselineValid)
@@ -668,9 +676,10 @@ public sealed class WallWatch
     private DischargeSummary FinishDischarge(long nowMs, double massKg)
     {
         _baselineValid = false;
-        var end = _state.SinceMs;
-        var seconds = Math.Max(1e-3, (nowMs - _dischargeOnsetMs) / 1000.0);
-        return new DischargeSummary(SiteId, SiloId, _dischargeOnsetMs, nowMs, _baselineMassKg, massKg, (massKg - _baselineMassKg) / seconds,
+        var endMs = _dischargeEndMs >= _dischargeOnsetMs ? _dischargeEndMs : nowMs;
+        var endMass = double.IsFinite(_dischargeEndMassKg) ? _dischargeEndMassKg : massKg;
+        var seconds = Math.Max(1e-3, (endMs - _dischargeOnsetMs) / 1000.0);
+        return new DischargeSummary(SiteId, SiloId, _dischargeOnsetMs, endMs, _baselineMassKg, endMass, (endMass - _baselineMassKg) / seconds,
             [.. _rings.Select(r => new RingPeak(r.Id, r.MaxA1, r.DirectionAtMaxA1, r.MaxA2, r.MaxOverExpected, r.MaxPeakOverMean))]);
     }
 

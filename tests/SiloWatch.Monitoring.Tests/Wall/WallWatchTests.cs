@@ -103,6 +103,29 @@ public sealed class WallWatchTests
     }
 
     [Fact]
+    public void AFinishedDischargeIsSummarisedOnceWithItsMassOutAndPeakAsymmetry()
+    {
+        var s = new WallScenario { AsymmetryRatio = 0.6, AsymmetryDirectionDeg = 140 };
+        s.Run(120);
+        var start = s.MassKg;
+        s.RateKgPerS = -30;
+        s.Run(300);
+        s.RateKgPerS = 0;
+        s.Run(200);
+
+        var summary = Assert.Single(s.Assessments, a => a.FinishedDischarge is not null).FinishedDischarge!;
+        Assert.Equal(DischargeState.Idle, s.Last!.State);
+        Assert.Equal(30 * 300, start - summary.MassAtEndKg, 30.0 * 20);       // onset taken before the confirmation
+        Assert.Equal(-30, summary.MeanRateKgPerS, 3.0);
+        var r1 = summary.Rings.Single(r => r.Ring == "R1");
+        Assert.Equal(0.6, r1.MaxA1Ratio, 1);
+        Assert.True(AngleBetween(r1.DirectionAtMaxDeg, 140) <= 15);
+        // The latched asymmetry alarm outlives the discharge until a person resets it.
+        Assert.Equal(AlarmStateName.Latched, s.Engine.Get("brackenford/S1/asymmetry-a1-R1").State);
+        Assert.NotNull(s.Engine.Reset("brackenford/S1/asymmetry-a1-R1", "shift.lead"));
+    }
+
+    [Fact]
     public void AConcentricDischargeRaisesNoAlarmAndMeetsItsExpectedLoad()
     {
         var s = new WallScenario();
