@@ -74,12 +74,17 @@ public sealed class BrokerPublishTests(ITestOutputHelper output)
             Assert.True(File.ReadLines(options.TruthCsvPath).Count() > 4 * 12);
             Assert.Equal(summary.Samples + 1, File.ReadLines(options.RecordCsvPath).Count());
 
-            // The recorded file replays through the broker as the same number of messages.
+            // The recorded file replays through the broker as the same number of messages; retimed, its
+            // (June) timestamps are moved to end when the replay ends, and none is ahead of its arrival.
             await using var replaySub = await Subscriber.StartAsync(port, prefix + "r");
-            var replay = await ReplayRunner.RunAsync(new ReplayOptions { FilePath = options.RecordCsvPath, BrokerPort = port, TopicPrefix = prefix + "r", Speed = 1000 }, null, CancellationToken.None);
+            var replayStart = DateTimeOffset.UtcNow;
+            var replay = await ReplayRunner.RunAsync(new ReplayOptions { FilePath = options.RecordCsvPath, BrokerPort = port, TopicPrefix = prefix + "r", Speed = 1000, Retime = true }, null, CancellationToken.None);
             Assert.Equal(summary.Messages, replay.Messages);
             Assert.Equal(summary.Samples, replay.Samples);
             await replaySub.WaitForAsync((int)replay.Messages, ArrivalLimit);
+            var replayed = replaySub.Received.Select(m => (Ts: DateTimeOffset.Parse(m.Json.RootElement.GetProperty("ts").GetString()!, CultureInfo.InvariantCulture), m.ReceivedAt)).ToList();
+            Assert.All(replayed, r => Assert.True(r.Ts <= r.ReceivedAt, $"retimed ts {r.Ts:O} after its arrival {r.ReceivedAt:O}"));
+            Assert.True(replayed.Max(r => r.Ts) >= replayStart - TimeSpan.FromSeconds(1), "retimed timestamps end about when the replay ends");
         }
         finally
         {

@@ -13,7 +13,7 @@ public static class SimulatorCommandLine
                  [--truth FILE.csv] [--record FILE.csv] [--plant FILE] [--materials FILE]
                  [--prefix silowatch] [--user NAME --password SECRET] [--loop]
           replay --file FILE.csv [--speed 1..1000] [--broker HOST:PORT] [--prefix silowatch]
-                 [--user NAME --password SECRET] [--publisher replay]
+                 [--user NAME --password SECRET] [--publisher replay] [--retime]
 
         Examples:
           run --scenario simulators/scenarios/normal-day.json --speed 100 --broker 127.0.0.1:1883 --truth out/truth.csv
@@ -78,7 +78,7 @@ public static class SimulatorCommandLine
             }
 
             key = key[2..];
-            if (key is "loop")
+            if (key is "loop" or "retime")
             {
                 result[key] = "true";
                 continue;
@@ -141,7 +141,7 @@ public static class SimulatorCommandLine
     public static ReplayOptions ToReplayOptions(Dictionary<string, string> o)
     {
         ArgumentNullException.ThrowIfNull(o);
-        Known(o, "file", "speed", "broker", "prefix", "user", "password", "publisher");
+        Known(o, "file", "speed", "broker", "prefix", "user", "password", "publisher", "retime");
         var options = new ReplayOptions
         {
             FilePath = o.TryGetValue("file", out var f) ? f : throw new ArgumentException("replay needs --file FILE.csv"),
@@ -150,6 +150,7 @@ public static class SimulatorCommandLine
             Username = o.GetValueOrDefault("user"),
             Password = o.GetValueOrDefault("password"),
             Publisher = o.GetValueOrDefault("publisher", "replay"),
+            Retime = o.ContainsKey("retime"),
         };
         (options.BrokerHost, options.BrokerPort) = Broker(o.GetValueOrDefault("broker", "127.0.0.1:1883"));
         return options;

@@ -29,6 +29,13 @@ public sealed class ReplayOptions
     public string Publisher { get; set; } = "replay";
 
     public string? ClientId { get; set; }
+
+    /// <summary>
+    /// Shift every timestamp by one offset so that the last sample falls when the replay ends: at ×1 the
+    /// timestamps then follow the wall clock, and at any speed none lies in the future. Default false
+    /// (the recorded timestamps).
+    /// </summary>
+    public bool Retime { get; set; }
 }
 
 /// <summary>Publishes a recorded CSV again, with the recorded timestamps, at the recorded pace or faster.</summary>
@@ -47,13 +54,17 @@ public static class ReplayRunner
             throw new FileNotFoundException($"recorded file '{options.FilePath}' not found", options.FilePath);
         }
 
-        var totalRows = Math.Max(1, File.ReadLines(options.FilePath).LongCount() - 1);
+        var (rows, firstTime, lastTime) = Scan(options.FilePath);
+        var totalRows = Math.Max(1, rows);
         var clientId = options.ClientId ?? $"silowatch-replay-{Environment.ProcessId.ToString(CultureInfo.InvariantCulture)}";
         await using var publisher = new MqttPublisher(options.BrokerHost, options.BrokerPort, options.Username, options.Password, clientId, progress);
         progress?.WriteLine($"replaying '{options.FilePath}' ({totalRows} samples) at x{options.Speed.ToString(CultureInfo.InvariantCulture)} to {options.BrokerHost}:{options.BrokerPort}");
         await publisher.ConnectAsync(ct).ConfigureAwait(false);
 
         var bar = progress is null ? null : new ProgressBar(progress);
+        // Retimed: the last sample is due at the end of the replay, (last − first)/speed from now, less a
+        // second so that the pacing's millisecond slack can never put a timestamp ahead of the clock.
+        var shift = options.Retime ? DateTimeOffset.UtcNow + ((lastTime - firstTime) / options.Speed) - lastTime - TimeSpan.FromSeconds(1) : TimeSpan.Zero;
         var wall = Stopwatch.StartNew();
         long messages = 0, samples = 0;
         DateTimeOffset? first = null;
@@ -62,8 +73,9 @@ public static class ReplayRunner
         try
         {
             using var reader = new StreamReader(options.FilePath);
-            foreach (var message in ReadMessages(reader, options.Publisher))
+            foreach (var recorded in ReadMessages(reader, options.Publisher))
             {
+                var message = shift == TimeSpan.Zero ? recorded : recorded with { Timestamp = recorded.Timestamp + shift };
                 first ??= message.Timestamp;
                 last = message.Timestamp;
                 var wait = ((message.Timestamp - first.Value) / options.Speed) - wall.Elapsed;
@@ -90,6 +102,22 @@ public static class ReplayRunner
         var summary = new SimulationSummary(messages, samples, wall.Elapsed, first is null ? TimeSpan.Zero : last - first.Value, 0, 0, 0, 0, publisher.Retries);
         progress?.WriteLine(summary.ToString());
         return summary;
+    }
+
+    /// <summary>Rows, earliest and latest time of a recorded file (one pass before the replay, for progress and retiming).</summary>
+    private static (long Rows, DateTimeOffset First, DateTimeOffset Last) Scan(string path)
+    {
+        long rows = 0;
+        DateTimeOffset first = DateTimeOffset.MaxValue, last = DateTimeOffset.MinValue;
+        using var reader = new StreamReader(path);
+        foreach (var m in ReadMessages(reader, "scan"))
+        {
+            rows += m.Samples.Count;
+            first = m.Timestamp < first ? m.Timestamp : first;
+            last = m.Timestamp > last ? m.Timestamp : last;
+        }
+
+        return rows == 0 ? (0, DateTimeOffset.UnixEpoch, DateTimeOffset.UnixEpoch) : (rows, first, last);
     }
 
     /// <summary>Groups consecutive rows of one instant and one silo into one message; seq counts per silo from 1.</summary>
