@@ -96,7 +96,8 @@ public static class ServiceCollectionExtensions
             sp.GetRequiredService<SiloWatch.Storage.ITimeSeriesSink>(),
             sp.GetRequiredService<SiloWatch.Storage.SeriesCatalog>(),
             sp.GetRequiredService<TimeProvider>(),
-            sp.GetRequiredService<ILogger<TelemetryIngest>>()));
+            sp.GetRequiredService<ILogger<TelemetryIngest>>(),
+            sp.GetService<SiloWatch.Service.Alarms.SiloAlarmsFactory>()));
 
         // Start order = registration order; stop runs in reverse (the broker goes last).
         services.AddHostedService<EmbeddedBrokerService>();

@@ -30,9 +30,11 @@ public static class SiloWatchApp
         builder.AddSiloWatchStorage();
         builder.AddSiloWatchIngest();
         builder.AddSiloWatchDemo();
+        builder.AddSiloWatchAlarms();
 
         var app = builder.Build();
         app.MapSiloWatchHealth();
+        app.MapSiloWatchStatusPage();
         return app;
     }
 }

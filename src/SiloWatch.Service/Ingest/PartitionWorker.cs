@@ -104,6 +104,23 @@ public sealed class PartitionWorker
         }
 
         PublishAll();
+        SaveSnapshots();
+    }
+
+    private void SaveSnapshots()
+    {
+        var now = _time.GetUtcNow().ToUnixTimeMilliseconds();
+        foreach (var pipeline in _pipelines)
+        {
+            try
+            {
+                pipeline.SaveSnapshots(now);
+            }
+            catch (Exception ex)
+            {
+                _logger.LogError(ex, "Saving the snapshots of {Silo} failed", pipeline.Silo.Key);
+            }
+        }
     }
 
     private void PublishAll()

@@ -2,13 +2,15 @@ using MQTTnet.Protocol;
 using SiloWatch.Messaging;
 using SiloWatch.Monitoring;
 using SiloWatch.Plant;
+using SiloWatch.Service.Alarms;
 using SiloWatch.Storage;
 
 namespace SiloWatch.Service.Ingest;
 
 /// <summary>
 /// Everything one silo owns: its decoder (with the sequence state of its publishers), its monitor
-/// (conversion, quality, estimate) and its last estimate. Touched by one worker loop only.
+/// (conversion, quality, estimate), its wall watch and alarms, and its last estimate. Touched by one
+/// worker loop only, except the alarm engine, which <see cref="SiloAlarms"/> guards for operator commands.
 /// </summary>
 public sealed class SiloPipeline : ITelemetryReceiver
 {
@@ -21,6 +23,9 @@ public sealed class SiloPipeline : ITelemetryReceiver
     private readonly ITimeSeriesSink _sink;
     private readonly SeriesCatalog _series;
     private long _receivedMs;
+    private long _newestSampleMs = long.MinValue;
+    private long _lastEvaluatedMs = long.MinValue;
+    private long _nextSampleEvaluationMs = long.MinValue;
 
     public SiloPipeline(SiloRef silo, SiloMonitor monitor, TelemetryDecoderOptions decoderOptions, TopicScheme topics,
         IngestCounters counters, OutboundQueue outbound, RateLimitedLog rejectLog, ITimeSeriesSink sink, SeriesCatalog series)
@@ -47,6 +52,12 @@ public sealed class SiloPipeline : ITelemetryReceiver
 
     public long SamplesRejected { get; private set; }
 
+    /// <summary>The silo's wall watch and alarm engine; null when the service runs without them.</summary>
+    public SiloAlarms? Alarms { get; private set; }
+
+    /// <summary>Attaches the wall watch and alarms (before the workers start).</summary>
+    public void AttachAlarms(SiloAlarms alarms) => Alarms = alarms ?? throw new ArgumentNullException(nameof(alarms));
+
     /// <summary>Decodes one telemetry message of this silo and feeds every good sample to the monitor.</summary>
     public void Process(ReadOnlySpan<byte> payload, long receivedMs)
     {
@@ -56,11 +67,36 @@ public sealed class SiloPipeline : ITelemetryReceiver
         _counters.SamplesAccepted(outcome.Accepted);
         SamplesAccepted += outcome.Accepted;
         SamplesRejected += outcome.Rejected;
+
+        // Replays: the samples' own time drives the evaluation, one step per SampleInterval of it.
+        if (Alarms is { FollowSamples: true } alarms && _newestSampleMs != long.MinValue && _newestSampleMs >= _nextSampleEvaluationMs)
+        {
+            Evaluate(_newestSampleMs, alarms.InstanceId);
+            _nextSampleEvaluationMs = _newestSampleMs + alarms.SampleIntervalMs;
+        }
     }
 
-    /// <summary>Evaluates the estimate and queues it for publishing (retained).</summary>
-    public InventoryEstimate Publish(long nowMs, string instanceId)
+    /// <summary>
+    /// Called by the worker each publish interval: evaluates at <paramref name="nowMs"/> (wall clock), or,
+    /// when the evaluation follows the samples' time, at the newest sample if it has not been evaluated yet.
+    /// </summary>
+    public InventoryEstimate? Publish(long nowMs, string instanceId)
     {
+        if (Alarms is { FollowSamples: true })
+        {
+            return _newestSampleMs != long.MinValue && _newestSampleMs > _lastEvaluatedMs ? Evaluate(_newestSampleMs, instanceId) : LastEstimate;
+        }
+
+        return Evaluate(nowMs, instanceId);
+    }
+
+    /// <summary>Saves the wall and alarm snapshots (the worker calls it once it has drained its queue).</summary>
+    public void SaveSnapshots(long nowMs) => Alarms?.SaveSnapshots(_lastEvaluatedMs != long.MinValue && Alarms.FollowSamples ? _lastEvaluatedMs : nowMs);
+
+    /// <summary>Evaluates the estimate, the wall and the alarms, and queues the state for publishing (retained).</summary>
+    private InventoryEstimate Evaluate(long nowMs, string instanceId)
+    {
+        _lastEvaluatedMs = nowMs;
         var estimate = Monitor.Evaluate(nowMs);
         LastEstimate = estimate;
         Span<double> fields =
@@ -74,12 +110,19 @@ public sealed class SiloPipeline : ITelemetryReceiver
         ];
         _sink.Write(_series.Estimate(Silo.Index), estimate.TimestampMs, fields);
         _outbound.Enqueue(new OutboundMessage(_stateTopic, StatePayload.Encode(estimate, instanceId), Retain: true, MqttQualityOfServiceLevel.AtLeastOnce));
+        Alarms?.Evaluate(Monitor, nowMs, estimate);
         return estimate;
     }
 
     void ITelemetryReceiver.OnSample(in TelemetrySample sample)
     {
         Monitor.OnSample(sample);
+        if (sample.TimestampMs > _newestSampleMs)
+        {
+            _newestSampleMs = sample.TimestampMs;
+        }
+
+        Alarms?.OnSample(Monitor, sample.SensorIndex, sample.TimestampMs);
         Span<double> fields =
         [
             sample.Value,

@@ -3,6 +3,7 @@ using MQTTnet.Protocol;
 using SiloWatch.Messaging;
 using SiloWatch.Monitoring;
 using SiloWatch.Plant;
+using SiloWatch.Service.Alarms;
 using SiloWatch.Service.Hosting;
 using SiloWatch.Storage;
 
@@ -26,12 +27,14 @@ public sealed class TelemetryIngest
     private readonly TimeProvider _time;
     private readonly RateLimitedLog _rejectLog;
     private readonly ILogger<TelemetryIngest> _logger;
+    private readonly AlarmCommandRouter? _commands;
     private Task[] _running = [];
     private volatile bool _accepting = true;
 
     public TelemetryIngest(PlantRegistry registry, ShardMap shard, SiloModels models, MonitoringOptions monitoring,
         TelemetryDecoderOptions decoderOptions, TopicScheme topics, IngestCounters counters, OutboundQueue outbound,
-        InstanceOptions options, ITimeSeriesSink sink, SeriesCatalog series, TimeProvider time, ILogger<TelemetryIngest> logger)
+        InstanceOptions options, ITimeSeriesSink sink, SeriesCatalog series, TimeProvider time, ILogger<TelemetryIngest> logger,
+        SiloAlarmsFactory? alarms = null)
     {
         _registry = registry;
         _topics = topics;
@@ -50,11 +53,17 @@ public sealed class TelemetryIngest
         {
             var monitor = new SiloMonitor(silo, models.For(silo), monitoring, time);
             var pipeline = new SiloPipeline(silo, monitor, decoderOptions, topics, counters, outbound, _rejectLog, sink, series);
+            if (alarms is not null)
+            {
+                pipeline.AttachAlarms(alarms.Create(silo, models.For(silo)));
+            }
+
             _pipelinesByKey[silo.Key] = pipeline;
             _workers[ShardMap.ShardOf(silo.Key, partitions)].Add(pipeline);
         }
 
         _pipelinesBySpan = _pipelinesByKey.GetAlternateLookup<ReadOnlySpan<char>>();
+        _commands = alarms?.CreateRouter(_pipelinesByKey);
         _ownsAll = shard.Owned.Count == registry.Silos.Count && options.ShardCount == 1 && options.Silos.Count == 0;
     }
 
@@ -65,10 +74,13 @@ public sealed class TelemetryIngest
     /// <summary>
     /// MQTT topic filters: one per owned silo when sharded; a single wildcard when this instance
     /// owns the whole plant, so telemetry for silos the plant does not know is seen and dead-lettered too.
+    /// With alarms, the command topics of the same silos follow.
     /// </summary>
-    public IReadOnlyList<string> Subscriptions => _ownsAll
-        ? [_topics.TelemetryFilterAll()]
-        : [.. _pipelinesByKey.Values.Select(p => _topics.TelemetryFilter(p.Silo.SiteId, p.Silo.SiloId))];
+    public IReadOnlyList<string> Subscriptions =>
+    [
+        .. _ownsAll ? [_topics.TelemetryFilterAll()] : _pipelinesByKey.Values.Select(p => _topics.TelemetryFilter(p.Silo.SiteId, p.Silo.SiloId)),
+        .. _commands?.Subscriptions(_ownsAll) ?? [],
+    ];
 
     public void Start(CancellationToken stoppingToken) =>
         _running = [.. _workers.Select(w => Task.Run(() => w.RunAsync(stoppingToken), CancellationToken.None))];
@@ -84,6 +96,12 @@ public sealed class TelemetryIngest
         }
 
         var topic = e.ApplicationMessage.Topic;
+        if (_commands is not null && _commands.IsCommand(topic))
+        {
+            _commands.Handle(e.ApplicationMessage);
+            return;
+        }
+
         if (!_topics.TryGetTelemetrySiloKey(topic, out var siloKey))
         {
             if (topic.StartsWith(_topics.Prefix + "/" + TopicScheme.Version + "/telemetry/", StringComparison.Ordinal))
