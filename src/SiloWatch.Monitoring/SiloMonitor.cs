@@ -52,6 +52,9 @@ public sealed class SiloMonitor
     private TareRecord? _tare;
 
     private int _scanMask;
+    private long _scanStartMs;
+    private long _scanLastMs = long.MinValue;
+    private readonly long _scanToleranceMs;
     private int _failedCellMask;
     private bool _resetPending;
     private long _lastFusionMs = long.MinValue;
@@ -60,6 +63,7 @@ public sealed class SiloMonitor
     private QualityFlags _lastFlags = QualityFlags.NoData;
     private string _method;
     private long _rejectedSamples;
+    private bool _gammaTiedToKMu;
 
     public SiloMonitor(SiloRef silo, SiloModel model, MonitoringOptions options, TimeProvider time)
     {
@@ -110,6 +114,7 @@ public sealed class SiloMonitor
         _cells = [.. cells];
         _net = new double[_cells.Length];
         _cellStaleAfterMs = _cells.Length == 0 ? long.MaxValue : _cells.Max(c => _channels[c].StaleAfterMs);
+        _scanToleranceMs = _cells.Length == 0 ? 1 : Math.Max(1, _cells.Min(c => _channels[c].PeriodMs) / 2);
         _drift = _cells.Length >= 2
             ? new ShareDriftDetector(_cells.Length, options.DriftLearningTime.TotalSeconds, options.DriftSmoothingTime.TotalSeconds, options.DriftShareTolerance)
             : null;
@@ -174,6 +179,12 @@ public sealed class SiloMonitor
 
     public InventoryCalibration? Calibration => _calibration;
 
+    /// <summary>Net load on the weighing cells at the last complete scan (after tare, failed cells substituted), kN; NaN before one. Calibration points are taken from it.</summary>
+    public double LastNetLoadKn { get; private set; } = double.NaN;
+
+    /// <summary>Wall load from the base ring at the last scan (U·n_z, compression positive), kN; NaN when the ring was not used.</summary>
+    public double LastWallLoadKn { get; private set; } = double.NaN;
+
     /// <summary>Samples ignored because they named a sensor this silo does not have.</summary>
     public long RejectedSamples => _rejectedSamples;
 
@@ -190,6 +201,11 @@ public sealed class SiloMonitor
         var ts = sample.TimestampMs;
         var raw = sample.Value;
         var o = ch.Options;
+        if (ch.CellIndex >= 0)
+        {
+            BeginCellSample(ch, ts);
+        }
+
         ch.Raw = raw;
         ch.LastMs = ts;
 
@@ -356,6 +372,9 @@ public sealed class SiloMonitor
         }
     }
 
+    /// <summary>Last converted value of a sensor in its engineering unit (kN, microstrain, degC), NaN before the first; no allocation.</summary>
+    public double LastValue(int sensorIndex) => _channels[sensorIndex].Value;
+
     /// <summary>Robust z-score of the last sample of a sensor (diagnostics).</summary>
     public double LastSpikeZ(int sensorIndex) => _channels[sensorIndex].Spike.LastZ;
 
@@ -416,6 +435,7 @@ public sealed class SiloMonitor
         _unitWeightRelStd = calibration.UnitWeightKnM3 is null ? gStd : calibration.UnitWeightRelativeStd ?? gStd;
         _kMuRelStd = calibration.KMu is null ? kStd : calibration.KMuRelativeStd ?? kStd;
         _calibration = calibration;
+        _gammaTiedToKMu = calibration.KMu is not null && calibration.UnitWeightKnM3 is null;
         if (_arrangement == WeighingArrangement.FloorOnly)
         {
             _resetPending = true;
@@ -483,6 +503,25 @@ public sealed class SiloMonitor
         return problems;
     }
 
+    // A scan is the weighing cells' samples of one instant. It ends when every usable cell has
+    // reported (fused at once), or when a sample of a later instant arrives (the late or missing
+    // cells keep their last value). Grouping by timestamp, not by arrival order, keeps a scan from
+    // mixing two instants however the gateway orders its samples.
+    private void BeginCellSample(SensorChannel ch, long ts)
+    {
+        if (_scanMask == 0)
+        {
+            _scanStartMs = ts;
+            return;
+        }
+
+        if (ts - _scanStartMs >= _scanToleranceMs || ts < _scanStartMs || (_scanMask & (1 << ch.CellIndex)) != 0)
+        {
+            FuseScan(_scanLastMs);
+            _scanStartMs = ts;
+        }
+    }
+
     private void AfterCellSample(SensorChannel ch, long ts)
     {
         if (ch.CellIndex < 0)
@@ -490,14 +529,8 @@ public sealed class SiloMonitor
             return;
         }
 
-        var bit = 1 << ch.CellIndex;
-        if ((_scanMask & bit) != 0)
-        {
-            // This cell again before the others reported: fuse what the scan has, then start the next.
-            FuseScan(ts);
-        }
-
-        _scanMask |= bit;
+        _scanMask |= 1 << ch.CellIndex;
+        _scanLastMs = Math.Max(_scanLastMs, ts);
         var required = 0;
         for (var k = 0; k < _cells.Length; k++)
         {
@@ -507,15 +540,16 @@ public sealed class SiloMonitor
             }
         }
 
-        if (required != 0 && (_scanMask & required) == required)
+        if ((_scanMask & required) == required && (required & _scanMask) != 0)
         {
-            FuseScan(ts);
+            FuseScan(_scanLastMs);
         }
     }
 
     private void FuseScan(long ts)
     {
         _scanMask = 0;
+        _scanLastMs = long.MinValue;
         var flags = QualityFlags.None;
         var used = 0;
         double sumNet = 0, sumShareUsed = 0, randVarKn = 0, sysVarKn = 0, failedShareStd = 0;
@@ -587,6 +621,8 @@ public sealed class SiloMonitor
             UpdateDrift(ts, totalKn);
         }
 
+        LastNetLoadKn = totalKn;
+        LastWallLoadKn = double.NaN;
         double massKg, randVarKg, sysVarKg;
         var method = MethodName(false);
         switch (_arrangement)
@@ -691,6 +727,7 @@ public sealed class SiloMonitor
             var wallKn = _model.PerimeterM * nzKnPerM;
             var belowKn = _model.PerimeterM * Math.Max(0, atBase.AxialForceKnPerM - atRing.AxialForceKnPerM);
             var totalKn = floorKn + wallKn + belowKn;
+            LastWallLoadKn = wallKn;
             var perMicro = _model.PerimeterM * g.WallYoungsModulusGPa * g.WallThicknessM;
             var ringRand = perMicro * perMicro * ringNoiseMicro2;
             var ringSys = Math.Pow(wallKn * _options.WallRingRelativeStd, 2) + Math.Pow(0.5 * belowKn, 2);
@@ -732,7 +769,14 @@ public sealed class SiloMonitor
         var dmdF = Slope(_model.InvertFloorLoad(floorKn + dF, p), m0, dF, capacityKg);
         const double h = 0.01;
         var dmdLnKMu = Slope(_model.InvertFloorLoad(floorKn, p.WithKMu(p.KMu * (1 + h))), m0, h, capacityKg);
-        var dmdLnGamma = Slope(_model.InvertFloorLoad(floorKn, p with { UnitWeightKnM3 = p.UnitWeightKnM3 * (1 + h) }), m0, h, capacityKg);
+        // After a calibration that held γ, the fit fixed γ/(K·μ) (what the floor load sees): γ then moves with K·μ.
+        var pGamma = p with { UnitWeightKnM3 = p.UnitWeightKnM3 * (1 + h) };
+        if (_gammaTiedToKMu)
+        {
+            pGamma = pGamma.WithKMu(p.KMu * (1 + h));
+        }
+
+        var dmdLnGamma = Slope(_model.InvertFloorLoad(floorKn, pGamma), m0, h, capacityKg);
 
         massKg = m0;
         randVarKg = dmdF * dmdF * randVarKn;

@@ -86,4 +86,28 @@ public sealed class SiloMonitorTests
         Assert.Equal(Quality.Bad, e.Quality);
         Assert.True(double.IsNaN(e.MassKg));
     }
+
+    [Fact]
+    public void TheCellsOfOneInstantAreFusedTogetherWhateverTheirOrderSoAFillDoesNotLag()
+    {
+        // 117 kg/s: a scan that mixed two instants would lag by a share of that per second.
+        var (monitor, time, silo, model) = DemoPlant.Monitor("S1");
+        var source = new SignalSource(silo, model);
+        var random = new Random(4);
+        var t = time.GetUtcNow().ToUnixTimeMilliseconds();
+        for (var i = 0; i < 120; i++)
+        {
+            t += 1000;
+            var samples = source.Scan(117.0 * i, t).ToArray();
+            random.Shuffle(samples);
+            foreach (var sample in samples)
+            {
+                monitor.OnSample(sample);
+            }
+        }
+
+        var e = monitor.Evaluate(t);
+
+        Assert.True(Math.Abs(e.MassKg - (117.0 * 119)) < 30, $"estimate {e.MassKg:0} kg, truth {117.0 * 119:0} kg");
+    }
 }
