@@ -378,8 +378,16 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
                     await SubscribeAllAsync(result.IsSessionPresent, ct).ConfigureAwait(false);
                 }
 
-                await PublishCoreAsync(_statusTopic, StatusPayload("online", null), retain: true,
-                    MqttQualityOfServiceLevel.AtLeastOnce, ct).ConfigureAwait(false);
+                try
+                {
+                    await PublishCoreAsync(_statusTopic, StatusPayload("online", null), retain: true,
+                        MqttQualityOfServiceLevel.AtLeastOnce, ct).ConfigureAwait(false);
+                }
+                catch (MqttPublishException ex) when (_client.IsConnected)
+                {
+                    // Refused by the broker (ACL, no retain support): telemetry still flows, so stay connected.
+                    LogStatusFailed(_logger, _statusTopic, ex.Message);
+                }
             }
             catch (Exception ex) when (ex is MqttCommunicationException or MqttPublishException or MqttClientNotConnectedException)
             {

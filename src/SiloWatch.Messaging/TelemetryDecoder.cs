@@ -108,7 +108,7 @@ public sealed class TelemetryDecoder
         if (status == SequenceStatus.Duplicate)
         {
             Reject(receiver, RejectReason.DuplicateMessage,
-                Invariant($"message seq {message.Seq} from publisher '{publisher}' was already received"),
+                Invariant($"message seq {message.Seq} from {(publisher is null ? "an anonymous publisher" : "publisher '" + publisher + "'")} was already received"),
                 null, publisher, message.Seq, payload, 0, payload.Length);
             return new DecodeOutcome(0, 1, status, 0);
         }

@@ -250,6 +250,29 @@ public sealed class SupervisedMqttClientTests(ITestOutputHelper output) : IAsync
     }
 
     [Fact]
+    public async Task ARefusedStatusMessageIsAWarningAndTheClientStaysConnected()
+    {
+        Broker.Server.InterceptingPublishAsync += e =>
+        {
+            if (e.ClientId == "no-status" && e.ApplicationMessage.Topic.Contains("/instance/", StringComparison.Ordinal))
+            {
+                e.ProcessPublish = false;
+                e.Response.ReasonCode = MqttPubAckReasonCode.NotAuthorized;
+            }
+
+            return Task.CompletedTask;
+        };
+        var (client, _, log) = _env.Client(MqttTestEnvironment.Options(Broker.Port, "no-status"), "no-status");
+
+        await client.StartAsync(CancellationToken.None);
+        await MqttTestEnvironment.ConnectedAsync(client);
+
+        Assert.True(client.IsConnected);
+        Assert.Equal(1, log.Count(LogLevel.Warning, "NotAuthorized"));
+        Assert.Null(await Broker.Server.GetRetainedMessageAsync(client.StatusTopic));
+    }
+
+    [Fact]
     public async Task WhileTheBrokerIsDownTheNextAttemptWaitsForTheBackoffDelay()
     {
         var time = new FakeTimeProvider(DemoPlant.Now);
