@@ -529,7 +529,7 @@ public sealed class SiloModel
     }
 
     /// <summary>EN 1991-4 characteristic loads on the vertical wall at a depth below the equivalent surface (see <see cref="CharacteristicProfile"/>).</summary>
-    public CharacteristicPoint CharacteristicAt(double depthM, double eccentricityM = 0)
+    public CharacteristicPoint CharacteristicAt(double depthM)
     {
         RequireSlender();
         var wall = WallCategory;
