@@ -37,11 +37,11 @@ public sealed class WallWatchTests
         var s = new WallScenario { ResidualMicroPerK = 5 };
         var maxStrainA1 = 0.0;
         var start = s.NowMs;
-        s.Run(12 * 3600, i =>
+        s.Run(6 * 3600, i =>
         {
             var hour = (s.NowMs - start) / 3_600_000.0;
             s.SunAzimuthDeg = 90 + (15 * hour);
-            s.SunExcessK = 18 * Math.Sin(Math.PI * hour / 12);
+            s.SunExcessK = 18 * Math.Sin(Math.PI * hour / 6);
             if (i % 600 == 0 && s.Last is { } last)
             {
                 maxStrainA1 = Math.Max(maxStrainA1, last.Rings.Single(r => r.Ring == "R1").StrainMicro[1].Amplitude);
