@@ -53,6 +53,14 @@ public sealed class NetworkBehaviourTests
         Assert.Equal(seqs.Count, seqs.Distinct().Count());
     }
 
+    [Fact]
+    public void AnOutageStillRunningAtTheEndIsFlushedByTheLastTick()
+    {
+        var run = Run(new ScenarioEvent { At = TimeSpan.FromMinutes(2), Type = ScenarioEventType.Outage, Duration = TimeSpan.FromMinutes(5) });
+        var all = run.Messages("S1").Select(m => m.Seq).ToList();
+        Assert.Equal(Enumerable.Range(1, 181).Select(i => (long)i), all);
+    }
+
     private static StreamCollector Run(ScenarioEvent e)
     {
         var scenario = new ScenarioBuilder().Lasting(TimeSpan.FromMinutes(3))

@@ -157,6 +157,15 @@ public sealed class PlantModel
         }
 
         _first = false;
+        if (Finished)
+        {
+            // The last tick: what the gateway still holds (a held-back or buffered message) goes out now.
+            foreach (var site in _sites)
+            {
+                site.FlushAll(messages);
+            }
+        }
+
         return new TickResult(now, Elapsed, messages, truth);
     }
 
@@ -357,6 +366,14 @@ public sealed class PlantModel
                 output.AddRange(Buffer.Select(m => new OutgoingMessage(m, false)));
                 Buffer.Clear();
             }
+        }
+
+        public void FlushAll(List<OutgoingMessage> output)
+        {
+            output.AddRange(Buffer.Select(m => new OutgoingMessage(m, false)));
+            Buffer.Clear();
+            output.AddRange(Held.Values.OrderBy(m => m.Silo, StringComparer.Ordinal).Select(m => new OutgoingMessage(m, false)));
+            Held.Clear();
         }
 
         public void Advance(DateTimeOffset now, TimeSpan elapsed, double dtS, Noise noise)
