@@ -74,6 +74,18 @@ public sealed class MonitoringOptions
     [Range(0.0, 20.0)]
     public double LoadCellSpanUncertaintyPct { get; set; } = 0.05;
 
+    /// <summary>Zero stability of an installed cell: σ of its zero grows by this per hour since the tare, % of rated output. Default 0.01.</summary>
+    [Range(0.0, 10.0)]
+    public double LoadCellZeroDriftPctRoPerHour { get; set; } = 0.01;
+
+    /// <summary>Ceiling of that zero-drift σ, % of rated output. Default 0.1.</summary>
+    [Range(0.0, 10.0)]
+    public double LoadCellZeroDriftMaxPctRo { get; set; } = 0.1;
+
+    /// <summary>σ of a strain gauge's thermal output against its configured value, % of it (bonding, wall material). Default 12.</summary>
+    [Range(0.0, 100.0)]
+    public double GaugeThermalOutputUncertaintyPct { get; set; } = 12;
+
     /// <summary>σ of the configured structure mass while no commanded tare exists, % of it. Default 3.</summary>
     [Range(0.0, 100.0)]
     public double StructureMassUncertaintyPct { get; set; } = 3.0;

@@ -59,11 +59,14 @@ public sealed class SiloMonitor
     private bool _resetPending;
     private long _lastFusionMs = long.MinValue;
     private double _lastSysVarKg2;
+    private double _lastSysUp95Kg = double.NaN;
+    private double _lastSysDown95Kg = double.NaN;
     private double _lastConditioning = double.NaN;
     private QualityFlags _lastFlags = QualityFlags.NoData;
     private string _method;
     private long _rejectedSamples;
     private bool _gammaTiedToKMu;
+    private bool _asymmetric;
 
     public SiloMonitor(SiloRef silo, SiloModel model, MonitoringOptions options, TimeProvider time)
     {
@@ -269,6 +272,7 @@ public sealed class SiloMonitor
         {
             ch.Noise.Update(value);
             ch.Value = value;
+            ch.LastTemperatureC = temperatureC;
         }
 
         ch.SampleFlags = flags;
@@ -299,6 +303,9 @@ public sealed class SiloMonitor
         }
 
         var massStd = Math.Sqrt(Math.Max(0, p00) + _lastSysVarKg2);
+        var randomHalf = Z95 * Math.Sqrt(Math.Max(0, p00));
+        var halfUp = Math.Sqrt((randomHalf * randomHalf) + (_lastSysUp95Kg * _lastSysUp95Kg));
+        var halfDown = Math.Sqrt((randomHalf * randomHalf) + (_lastSysDown95Kg * _lastSysDown95Kg));
         var rateStd = Math.Sqrt(Math.Max(0, p11));
         var rho = _model.Expected.BulkDensityKgM3;
         var capacityM3 = _model.CapacityM3;
@@ -316,8 +323,10 @@ public sealed class SiloMonitor
         var volume = massKg / rho;
         var volumeStd = Math.Sqrt(Math.Pow(massStd / rho, 2) + Math.Pow(volume * _unitWeightRelStd, 2));
         var level = _model.LevelAtVolume(Math.Clamp(volume, 0, capacityM3));
-        var levelLow = _model.LevelAtVolume(Math.Clamp(volume - (Z95 * volumeStd), 0, capacityM3));
-        var levelHigh = _model.LevelAtVolume(Math.Clamp(volume + (Z95 * volumeStd), 0, capacityM3));
+        var volumeDown = Math.Sqrt(Math.Pow(halfDown / rho, 2) + Math.Pow(Z95 * volume * _unitWeightRelStd, 2));
+        var volumeUp = Math.Sqrt(Math.Pow(halfUp / rho, 2) + Math.Pow(Z95 * volume * _unitWeightRelStd, 2));
+        var levelLow = _model.LevelAtVolume(Math.Clamp(volume - volumeDown, 0, capacityM3));
+        var levelHigh = _model.LevelAtVolume(Math.Clamp(volume + volumeUp, 0, capacityM3));
 
         double? timeToEmpty = null;
         double? timeToFull = null;
@@ -336,8 +345,8 @@ public sealed class SiloMonitor
             SiloId,
             nowUnixMs,
             massKg,
-            massKg - (Z95 * massStd),
-            massKg + (Z95 * massStd),
+            massKg - halfDown,
+            massKg + halfUp,
             level,
             levelLow,
             levelHigh,
@@ -408,6 +417,7 @@ public sealed class SiloMonitor
             if ((isWeighing || isGauge) && ch.UsableAt(nowUnixMs))
             {
                 ch.TareValue = ch.Value;
+                ch.TareTemperatureC = ch.LastTemperatureC;
                 values.Add(new TareValue(ch.Options.Id, ch.Value, ch.EngineeringUnit));
             }
         }
@@ -576,9 +586,10 @@ public sealed class SiloMonitor
             var net = ch.Value - tareKn;
             _net[k] = net;
             sumNet += net;
-            sumShareUsed += _drift?.ExpectedShare(k) ?? 1.0;
+            // The shares of the last complete scans predict a failed cell best (an off-centre fill moves them from 1/n).
+            sumShareUsed += _drift?.RecentShare(k) ?? 1.0;
             randVarKn += ch.Noise.Variance;
-            sysVarKn += CellSystematicVarKn2(ch.Options, net);
+            sysVarKn += CellSystematicVarKn2(ch.Options, net, ts);
             if (ch.Drifting && _drift is not null)
             {
                 // Drifting but still used: widen by how far its share has moved.
@@ -660,6 +671,12 @@ public sealed class SiloMonitor
         var dtS = _lastFusionMs == long.MinValue ? 0.0 : (ts - _lastFusionMs) / 1000.0;
         _lastFusionMs = ts;
         _lastSysVarKg2 = sysVarKg;
+        if (!_asymmetric)
+        {
+            _lastSysUp95Kg = _lastSysDown95Kg = Z95 * Math.Sqrt(sysVarKg);
+        }
+
+        _asymmetric = false;
         _lastFlags = flags;
         _method = method;
         ZeroTracking(ts, dtS);
@@ -713,7 +730,7 @@ public sealed class SiloMonitor
         var p = _model.Expected;
         var inv = _model.InvertFloorLoad(floorKn, p);
 
-        if (_ring.Length >= 3 && TryRingFit(ts, out var c0, out _, out _, out var ringNoiseMicro2))
+        if (_ring.Length >= 3 && TryRingFit(ts, out var c0, out _, out _, out var ringNoiseMicro2, out var ringThermalMicro2))
         {
             // Total = floor + U·n_z at the ring + the friction between ring and transition (model) [D, DOMAIN.md §3].
             var g = _silo.Options.Geometry;
@@ -730,7 +747,7 @@ public sealed class SiloMonitor
             LastWallLoadKn = wallKn;
             var perMicro = _model.PerimeterM * g.WallYoungsModulusGPa * g.WallThicknessM;
             var ringRand = perMicro * perMicro * ringNoiseMicro2;
-            var ringSys = Math.Pow(wallKn * _options.WallRingRelativeStd, 2) + Math.Pow(0.5 * belowKn, 2);
+            var ringSys = Math.Pow(wallKn * _options.WallRingRelativeStd, 2) + Math.Pow(0.5 * belowKn, 2) + (perMicro * perMicro * ringThermalMicro2);
             massKg = totalKn * KgPerKn;
             randVarKg = (randVarKn + ringRand) * KgPerKn * KgPerKn;
             sysVarKg = (sysVarKn + ringSys) * KgPerKn * KgPerKn;
@@ -781,6 +798,39 @@ public sealed class SiloMonitor
         massKg = m0;
         randVarKg = dmdF * dmdF * randVarKn;
         sysVarKg = (dmdF * dmdF * sysVarKn) + Math.Pow(dmdLnKMu * _kMuRelStd, 2) + Math.Pow(dmdLnGamma * _unitWeightRelStd, 2);
+
+        // The inversion is far from linear near saturation: the 95 % bounds come from inverting at the
+        // 95 % values of K·μ and γ (each side combined in quadrature); past saturation the upper bound is open.
+        double up2 = Math.Pow(Z95 * dmdF, 2) * sysVarKn, down2 = up2;
+        foreach (var sign in (ReadOnlySpan<double>)[-1.0, 1.0])
+        {
+            var kFactor = Math.Exp(sign * Z95 * _kMuRelStd);
+            var gFactor = 1 + (sign * Z95 * _unitWeightRelStd);
+            var pk = p.WithKMu(p.KMu * kFactor);
+            var pg = p with { UnitWeightKnM3 = p.UnitWeightKnM3 * gFactor };
+            if (_gammaTiedToKMu)
+            {
+                pg = pg.WithKMu(p.KMu * gFactor);
+            }
+
+            foreach (var q in (ReadOnlySpan<SolidProperties>)[pk, pg])
+            {
+                var r = _model.InvertFloorLoad(floorKn, q);
+                var d = r.HasLevel ? r.MassKg - m0 : Math.Max(capacityKg * 1.5 - m0, 0);
+                if (d > 0)
+                {
+                    up2 += d * d;
+                }
+                else
+                {
+                    down2 += d * d;
+                }
+            }
+        }
+
+        _lastSysUp95Kg = Math.Sqrt(up2);
+        _lastSysDown95Kg = Math.Sqrt(down2);
+        _asymmetric = true;
         _lastConditioning = m0 > 0 ? Math.Abs(dmdF) * floorKn / m0 : 1.0;
         if (_lastConditioning > _options.ConditioningLimit)
         {
@@ -794,11 +844,11 @@ public sealed class SiloMonitor
             r.HasLevel ? (r.MassKg - m0) / step : capacityKg / step;
     }
 
-    private bool TryRingFit(long ts, out double c0, out double a1, out double b1) => TryRingFit(ts, out c0, out a1, out b1, out _);
+    private bool TryRingFit(long ts, out double c0, out double a1, out double b1) => TryRingFit(ts, out c0, out a1, out b1, out _, out _);
 
-    private bool TryRingFit(long ts, out double c0, out double a1, out double b1, out double meanNoiseVar)
+    private bool TryRingFit(long ts, out double c0, out double a1, out double b1, out double meanNoiseVar, out double meanThermalVar)
     {
-        c0 = a1 = b1 = meanNoiseVar = 0;
+        c0 = a1 = b1 = meanNoiseVar = meanThermalVar = 0;
         var count = 0;
         for (var j = 0; j < _ring.Length; j++)
         {
@@ -811,6 +861,13 @@ public sealed class SiloMonitor
             _ringAngles[count] = ch.AngleRad;
             _ringValues[count] = ch.Value - ch.TareValue;
             meanNoiseVar += ch.Noise.Variance;
+            if (double.IsFinite(ch.TareTemperatureC) && double.IsFinite(ch.LastTemperatureC))
+            {
+                // Thermal output known only to a few tens of percent: what is left after compensation since the tare.
+                var th = _options.GaugeThermalOutputUncertaintyPct / 100.0 * ch.Options.ThermalOutputMicroPerK * (ch.LastTemperatureC - ch.TareTemperatureC);
+                meanThermalVar += th * th;
+            }
+
             count++;
         }
 
@@ -821,6 +878,7 @@ public sealed class SiloMonitor
 
         // The mean over n gauges has 1/n of one gauge's noise variance.
         meanNoiseVar /= (double)count * count;
+        meanThermalVar /= (double)count * count;
         return RingFit.TryFit(_ringAngles.AsSpan(0, count), _ringValues.AsSpan(0, count), out c0, out a1, out b1);
     }
 
@@ -869,12 +927,16 @@ public sealed class SiloMonitor
         _filter.Shift(-shiftKn * _supportScale * KgPerKn);
     }
 
-    private double CellSystematicVarKn2(SensorOptions cell, double netKn)
+    private double CellSystematicVarKn2(SensorOptions cell, double netKn, long ts)
     {
+        // Zero stability since the tare: grows linearly with the hours since, up to a ceiling [D: a choice; datasheets give creep and zero return, not this].
+        var hours = _tare is null ? 0 : Math.Max(0, (ts - _tare.TimestampMs) / 3_600_000.0);
+        var zeroPct = Math.Min(_options.LoadCellZeroDriftPctRoPerHour * hours, _options.LoadCellZeroDriftMaxPctRo);
+        var zero = zeroPct / 100.0 * cell.CapacityKn;
         // Combined error as a rectangular bound (bound/√3); the cells' parts add in quadrature over the scan. Span error on the net load.
         var combined = LoadCellErrorBudget.CellStandardUncertaintyKn(_options.LoadCellCombinedErrorPctRo, cell.CapacityKn);
         var span = _options.LoadCellSpanUncertaintyPct / 100.0 * netKn;
-        return (combined * combined) + (span * span);
+        return (combined * combined) + (span * span) + (zero * zero);
     }
 
     private string Reason(QualityFlags flags, long nowMs)

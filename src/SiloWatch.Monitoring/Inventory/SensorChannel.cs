@@ -90,6 +90,12 @@ internal sealed class SensorChannel
 
     public long LastMs { get; set; } = long.MinValue;
 
+    /// <summary>Temperature the last value was compensated at, degC.</summary>
+    public double LastTemperatureC { get; set; } = double.NaN;
+
+    /// <summary>Temperature at the tare, degC.</summary>
+    public double TareTemperatureC { get; set; } = double.NaN;
+
     public double Raw { get; set; } = double.NaN;
 
     /// <summary>Last accepted engineering value (a rejected sample keeps the previous one).</summary>
