@@ -75,7 +75,8 @@ public static class ServiceCollectionExtensions
     public static IHostApplicationBuilder AddSiloWatchIngest(this IHostApplicationBuilder builder)
     {
         var services = builder.Services;
-        services.AddOptions<MqttOptions>().Bind(builder.Configuration.GetSection(MqttOptions.SectionName));
+        services.AddOptions<MqttOptions>().Bind(builder.Configuration.GetSection(MqttOptions.SectionName)).ValidateOnStart();
+        services.AddSingleton<IValidateOptions<MqttOptions>, MqttOptionsValidator>();
         services.AddOptions<EmbeddedBrokerOptions>().Bind(builder.Configuration.GetSection(EmbeddedBrokerOptions.SectionName));
         services.AddOptions<TelemetryDecoderOptions>().Bind(builder.Configuration.GetSection("Decoder"));
         services.AddOptions<MonitoringOptions>().Bind(builder.Configuration.GetSection(MonitoringOptions.SectionName));
