@@ -16,7 +16,7 @@ namespace SiloWatch.Benchmarks;
 /// discharge load, ramped in over 10 s), wind gusts (n = 2 ovalisation and some n = 1 bending), one-sided
 /// solar heating following the sun with passing clouds and a per-gauge residual thermal strain
 /// (2–6 µε/K, unknown to the watch), and white noise; everything sent as mV/V and degC.
-/// Usage: dotnet run -c Release --project tests/SiloWatch.Benchmarks -- detection [runsPerCase] [falseAlarmDays]
+/// Usage: dotnet run -c Release --project tests/SiloWatch.Benchmarks -- detection [runsPerCase] [falseAlarmDays] [multiples, e.g. 0,1.2]
 /// </summary>
 public static class DetectionDriver
 {
@@ -26,6 +26,7 @@ public static class DetectionDriver
     {
         var runs = args.Length > 0 ? int.Parse(args[0], CultureInfo.InvariantCulture) : 100;
         var days = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 42;
+        var multiples = args.Length > 2 ? args[2].Split(',').Select(x => double.Parse(x, CultureInfo.InvariantCulture)).ToArray() : [0.0, 0.5, 0.8, 1.2, 1.5, 2.0];
         var dir = Path.Combine(AppContext.BaseDirectory, "config");
         var materials = MaterialLibrary.Load(Path.Combine(dir, "materials.json"));
         var (plant, findings) = PlantLoader.LoadFile(Path.Combine(dir, "plant.demo.json"), materials.Names);
@@ -48,7 +49,7 @@ public static class DetectionDriver
         // detection run starts from that learned state (as a silo in service would).
         var warm = new Simulation(silo, model, seed: 1);
         var learned = warm.IdleDay();
-        foreach (var multiple in new[] { 0.0, 0.5, 0.8, 1.2, 1.5, 2.0 })
+        foreach (var multiple in multiples)
         {
             var ratio = multiple * setpoint;
             var times = new List<double>();
@@ -58,6 +59,11 @@ public static class DetectionDriver
             {
                 var sim = new Simulation(silo, model, seed: 1000 + (int)(multiple * 100) + (r * 7919), learned);
                 var result = sim.EccentricDischarge(ratio);
+                if (result.DetectedAfterS is not null && multiple == 0)
+                {
+                    Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"    false alarm in concentric run {r}: {result.Note}"));
+                }
+
                 if (result.DetectedAfterS is { } t)
                 {
                     detected++;
@@ -94,7 +100,7 @@ public static class DetectionDriver
     private static double Pct(List<double> sorted, double p) =>
         sorted.Count == 0 ? double.NaN : sorted[Math.Min(sorted.Count - 1, (int)Math.Ceiling(p * sorted.Count) - 1 < 0 ? 0 : (int)Math.Ceiling(p * sorted.Count) - 1)];
 
-    private sealed record DetectionResult(double? DetectedAfterS, double DirectionErrorDeg);
+    private sealed record DetectionResult(double? DetectedAfterS, double DirectionErrorDeg, string Note = "");
 
     private sealed record DaysResult(double Hours, int WallAlarms, int OtherAlarms, double MaxA1, List<string> OtherAlarmIds);
 
@@ -122,6 +128,8 @@ public static class DetectionDriver
         private readonly double[] _ringMean;
         private readonly int[] _ringOfGauge;
         private readonly List<AlarmTransition> _transitions = [];
+        private readonly List<WallAssessment> _history = [];
+        private bool _keepHistory;
 
         private double _massKg;
         private double _rateKgPerS;
@@ -186,6 +194,7 @@ public static class DetectionDriver
             var rate = -(15 + (25 * _random.NextDouble()));
             var onset = NowMs;
             _transitions.Clear();
+            _keepHistory = ratio == 0;
             Step(600, rate);
             var first = _transitions.FirstOrDefault(t => t.To == AlarmStateName.Unacknowledged && t.Condition.Contains("/asymmetry-a1/", StringComparison.Ordinal));
             if (first is null)
@@ -195,7 +204,10 @@ public static class DetectionDriver
 
             var ring = _watch.Evaluate(NowMs, _monitor.Evaluate(NowMs)).Rings[0];
             var err = Math.Abs(ring.AsymmetryDirectionDeg - _directionDeg) % 360;
-            return new DetectionResult((first.TimestampMs - onset) / 1000.0, err > 180 ? 360 - err : err);
+            var at = _history.FirstOrDefault(h => h.TimestampMs == first.TimestampMs);
+            var note = $"{first.AlarmId} at {(first.TimestampMs - onset) / 1000.0:0} s, value {first.Value:0.000}, sun {_sun}, {first.Message[^40..]}"
+                + (at is null ? "" : "; rings: " + string.Join(" | ", at.Rings.Select(r => $"{r.Ring} good {r.GoodGauges} A1 {r.A1Ratio:0.000} dA0 {(r.ChangeMicro.Count > 0 ? r.ChangeMicro[0].Amplitude : double.NaN):0.0} exp {r.ExpectedMeanMicro:0.0} dT1 {(r.TemperatureChangeK.Count > 1 ? r.TemperatureChangeK[1].Amplitude : double.NaN):0.00} {r.Note}")));
+            return new DetectionResult((first.TimestampMs - onset) / 1000.0, err > 180 ? 360 - err : err, note);
         }
 
         /// <summary>Days of ordinary operation: concentric discharges and fills; wall alarms counted as false.</summary>
@@ -358,6 +370,11 @@ public static class DetectionDriver
             var inventory = _monitor.Evaluate(now);
             _watch.Update(_monitor.Readings);
             var assessment = _watch.Evaluate(now, inventory);
+            if (_keepHistory)
+            {
+                _history.Add(assessment);
+            }
+
             _transitions.AddRange(_engine.Evaluate(assessment.Conditions));
             return assessment;
         }

@@ -24,8 +24,12 @@ public sealed class WallWatchOptions
     /// <summary>A gauge value older than this is not used. Default 5 s.</summary>
     public TimeSpan GaugeStaleAfter { get; set; } = TimeSpan.FromSeconds(5);
 
-    /// <summary>Use gauges of uncertain quality (e.g. a held spike, missing temperature). Default true; bad ones are never used.</summary>
-    public bool UseUncertainGauges { get; set; } = true;
+    /// <summary>
+    /// Use gauges of uncertain quality. Default false: an uncertain gauge is a held spike or a gauge whose paired
+    /// temperature is missing (then uncompensated, so it jumps by its thermal output × (T − T_ref) against the
+    /// baseline, an n = 1 pattern the benchmark showed raising a false asymmetry). Bad ones are never used.
+    /// </summary>
+    public bool UseUncertainGauges { get; set; }
 
     /// <summary>A ring is assessed only while the contents cover it by at least this depth, m. Default 0.5.</summary>
     [Range(0.0, 100.0)]

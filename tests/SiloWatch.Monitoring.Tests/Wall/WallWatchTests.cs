@@ -162,6 +162,22 @@ public sealed class WallWatchTests
     }
 
     [Fact]
+    public void AnUncertainGaugeIsLeftOutSoItsUncompensatedJumpRaisesNoAsymmetry()
+    {
+        // A gauge whose paired temperature went missing is uncompensated: it jumps by its thermal output × (T − T_ref).
+        var s = new WallScenario();
+        s.Run(120);
+        s.RateKgPerS = -30;
+        s.Run(60);
+        s.UncertainSensors["SG-R1-120"] = 1.5 * (15 - 20) * 4; // a large jump, to make the point
+        s.Run(60);
+
+        Assert.Equal(5, s.Ring("R1").GoodGauges);
+        Assert.True(s.Ring("R1").A1Ratio < 0.05);
+        Assert.Empty(s.Raised("asymmetry"));
+    }
+
+    [Fact]
     public void RingForcesAtTheExpectedStrainAreTheModelsMembraneForces()
     {
         // Round trip against Mechanics: its strains come from n_z and p_h·r by biaxial Hooke; ours go back with MembraneForces [D].

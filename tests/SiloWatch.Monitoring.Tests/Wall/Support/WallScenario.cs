@@ -69,6 +69,9 @@ public sealed class WallScenario
 
     public HashSet<string> BadSensors { get; } = new(StringComparer.Ordinal);
 
+    /// <summary>Gauges reported uncertain (e.g. their paired temperature is missing) and offset by this many microstrain.</summary>
+    public Dictionary<string, double> UncertainSensors { get; } = new(StringComparer.Ordinal);
+
     public List<AlarmTransition> Transitions { get; } = [];
 
     public List<WallAssessment> Assessments { get; } = [];
@@ -119,7 +122,8 @@ public sealed class WallScenario
                     + (sign * ramp * AsymmetryRatio * meanLoad * Math.Cos((g.AngleDeg - AsymmetryDirectionDeg) * Math.PI / 180))
                     + (ResidualMicroPerK * (temperature - 20))
                     + (NoiseMicro * Gaussian());
-                Watch.OnGauge(g.SensorIndex, now, strain, temperature, BadSensors.Contains(sensor.Id) ? Quality.Bad : Quality.Good);
+                var quality = BadSensors.Contains(sensor.Id) ? Quality.Bad : UncertainSensors.ContainsKey(sensor.Id) ? Quality.Uncertain : Quality.Good;
+                Watch.OnGauge(g.SensorIndex, now, strain + UncertainSensors.GetValueOrDefault(sensor.Id), temperature, quality);
             }
         }
 
