@@ -89,16 +89,16 @@ public sealed class AlarmCommandRouter
             return;
         }
 
-        if (user.Length == 0)
-        {
-            Refuse(siteId, siloId, CommandOutcome.Refused("no MQTT v5 user property \"user\": commands must say who sends them"), user, alarms);
-            return;
-        }
-
         var payload = message.Payload.IsSingleSegment ? message.Payload.FirstSpan : message.Payload.ToArray();
         if (!AlarmCommand.TryParse(payload, user, siteId, siloId, out var command, out var problem))
         {
             Refuse(siteId, siloId, CommandOutcome.Refused(problem, command), user, alarms);
+            return;
+        }
+
+        if (user.Length == 0)
+        {
+            Refuse(siteId, siloId, CommandOutcome.Refused("no MQTT v5 user property \"user\": commands must say who sends them", command), user, alarms);
             return;
         }
 

@@ -1,0 +1,257 @@
+using System.Globalization;
+using System.Text.Json;
+using System.Text.RegularExpressions;
+using SiloWatch.Integration.Tests.Support;
+using SiloWatch.Monitoring.Alarms;
+using SiloWatch.Monitoring.Wall;
+using Xunit.Abstractions;
+
+namespace SiloWatch.Integration.Tests;
+
+/// <summary>
+/// The wall watch and the alarms in the running service, fed by the plant simulator (accelerated,
+/// evaluated on the samples' own clock) through a real Mosquitto; operator commands over MQTT.
+/// </summary>
+public sealed partial class WallAlarmsThroughMosquittoTests(ITestOutputHelper output)
+{
+    private const string Site = "brackenford";
+    private const string Operator = "op-anna";
+
+    private static readonly (string, string)[] Replay =
+    [
+        ("Decoder:MaxLateness", "00:00:00"),
+        ("Evaluation:Clock", "Samples"),
+        ("Commands:AllowedUsers:0", Operator),
+    ];
+
+    [Fact]
+    public async Task AnEccentricDischargeRaisesTheAsymmetryAlarmWithTheLoadRisingOppositeTheFlowChannel()
+    {
+        await using var broker = await MosquittoServer.StartOrNullAsync();
+        if (broker is null)
+        {
+            return;
+        }
+
+        // The demo plant's A1/A0 limit (0.35) is a placeholder above what this simulated side-outlet discharge
+        // produces (a peak near 0.13 on S1); the test sets 0.10 on S1 and on S2, whose central discharge stays
+        // lower (near 0.08), so one must raise the alarm and the other must not.
+        var plant = SimulatedPlant.PlantWithLimits(("S1", "AsymmetryRatioA1", 0.10), ("S2", "AsymmetryRatioA1", 0.10));
+        var instance = Instance("ecc");
+        await using var service = await ServiceUnderTest.StartAsync(broker.Port, instance, [.. Replay, ("Instance:PlantFile", plant)]);
+        await using var observer = await TestMqtt.ConnectAsync(broker.Port, "obs-" + instance, "silowatch/v1/events/#", "silowatch/v1/alarms/#");
+        await using (SimulatedPlant.Start(broker.Port, "eccentric-discharge.json", speed: 100, plantPath: plant))
+        {
+            try
+            {
+                await TestMqtt.WaitForAsync(() => Transitions(observer).Any(t => IsAsymmetry(t, "S1") && t.To == "unacknowledged")
+                    && Events(observer).Any(e => e.GetProperty("type").GetString() == "discharge" && e.GetProperty("silo").GetString() == "S2"),
+                    "an asymmetry alarm of S1 during its side-outlet discharge, and the end of the central discharge of S2", TimeSpan.FromSeconds(55));
+            }
+            finally
+            {
+                var st = service.Ingest.Pipelines.Single(p => p.Silo.SiloId == "S1").Alarms!.Status;
+                output.WriteLine($"S1 at {DateTimeOffset.FromUnixTimeMilliseconds(st.EvaluatedMs)}: {st.DischargeState} {st.Estimate?.MassKg} {st.Estimate?.RateKgPerS} {st.Estimate?.Quality} {st.Estimate?.QualityReason}");
+                foreach (var r in st.Rings)
+                {
+                    output.WriteLine($"  {r}");
+                }
+
+                Dump(observer);
+            }
+        }
+
+        Dump(observer);
+        var raised = Transitions(observer).First(t => IsAsymmetry(t, "S1") && t.To == "unacknowledged");
+        output.WriteLine(raised.Message);
+
+        // The scenario's flow channel of S1 is at 120 deg. Inside the channel the wall pressure falls and beside it
+        // it rises (DOMAIN.md §2, p_hae = 2·p_hf − p_hce [M]): the first harmonic of the load rise points away
+        // from the channel, toward about 300 deg. The ratio is judged against the plant's A1/A0 limit.
+        var direction = DirectionOf(raised.Message);
+        Assert.True(AngleBetween(direction, 300) <= 40, $"asymmetry direction {direction:0} deg, expected about 300 deg: {raised.Message}");
+        Assert.True(raised.Value >= raised.Setpoint, $"value {raised.Value} below the setpoint {raised.Setpoint}");
+        Assert.Contains("Never enter the silo", raised.Message, StringComparison.Ordinal);
+
+        // Journaled with its time, value and who (the system), and listed retained as active.
+        var history = service.Journal.QueryAlarmHistory(Site, "S1", 0, long.MaxValue);
+        var row = Assert.Single(history, h => h.AlarmId == raised.Alarm && h.ToState == "unacknowledged");
+        Assert.Equal("system", row.User);
+        Assert.Equal(raised.Value!.Value, row.Value, 6);
+        Assert.Contains(RetainedAlarms(observer, "S1"), a => a == raised.Alarm);
+
+        // The discharge was seen as one: S1 left idle for discharging, with an event on its topic.
+        Assert.Contains(observer.Received, m => m.Topic == $"silowatch/v1/events/{Site}/S1" && m.Payload.Contains("\"to\":\"discharging\"", StringComparison.Ordinal));
+
+        // S2 discharged centrally under the same limit: no asymmetry alarm; its discharge record was journaled.
+        Assert.DoesNotContain(Transitions(observer), t => IsAsymmetry(t, "S2") && t.To == "unacknowledged");
+        var s2Event = Assert.Single(service.Journal.QueryEvents(Site, "S2", 0, long.MaxValue), e => !e.InProgress && e.MassOutKg > 10_000);
+        Assert.InRange(s2Event.MassOutKg, 30_000, 50_000); // the scenario takes 40 t out of S2
+        Assert.True(s2Event.MaxAsymmetryRatio < 0.10, $"S2 peak A1/A0 {s2Event.MaxAsymmetryRatio}");
+    }
+
+    [Fact]
+    public async Task ASunnyIdleAfternoonRaisesNoAlarm()
+    {
+        await using var broker = await MosquittoServer.StartOrNullAsync();
+        if (broker is null)
+        {
+            return;
+        }
+
+        var instance = Instance("sun");
+        await using var service = await ServiceUnderTest.StartAsync(broker.Port, instance, Replay);
+        await using var observer = await TestMqtt.ConnectAsync(broker.Port, "obs-" + instance, "silowatch/v1/events/#");
+        var start = DateTimeOffset.Parse("2026-06-21T10:00:00Z", CultureInfo.InvariantCulture).ToUnixTimeMilliseconds();
+        await using (SimulatedPlant.Start(broker.Port, "sunny-idle-afternoon.json", speed: 300))
+        {
+            // 75 simulated minutes of sun on the shells with every silo evaluated (an upper bound on the wait, not a speed check).
+            await TestMqtt.WaitForAsync(() => service.Ingest.Pipelines.All(p => p.Alarms!.Status.EvaluatedMs >= start + (75 * 60_000)),
+                "75 simulated minutes evaluated on every silo", TimeSpan.FromSeconds(55));
+        }
+
+        Dump(observer);
+        foreach (var p in service.Ingest.Pipelines)
+        {
+            var status = p.Alarms!.Status;
+            output.WriteLine($"{p.Silo.Key}: {status.DischargeState}, {status.Estimate?.Quality} {status.Estimate?.QualityReason}, {status.Alarms.Count} active");
+            Assert.Equal(DischargeState.Idle, status.DischargeState);
+            Assert.Empty(status.Alarms);
+        }
+
+        Assert.DoesNotContain(Transitions(observer), t => t.To == "unacknowledged");
+        Assert.DoesNotContain(service.Journal.QueryAlarmHistory(Site, null, 0, long.MaxValue), h => h.ToState == "unacknowledged");
+
+        // Nothing flows: after the estimate's start-up (its first rate estimates can cross the threshold, see the
+        // report), no silo starts a fill or a discharge all afternoon.
+        var startUpEnd = DateTimeOffset.FromUnixTimeMilliseconds(start).AddSeconds(60);
+        Assert.DoesNotContain(Events(observer), e => e.GetProperty("type").GetString() == "discharge-state"
+            && e.GetProperty("to").GetString() is "filling" or "discharging"
+            && e.GetProperty("ts").GetDateTimeOffset() > startUpEnd);
+    }
+
+    [Fact]
+    public async Task AnAuthorisedAcknowledgeOverMqttMovesTheStateAndIsJournaledWhileAnUnauthorisedOneIsRefused()
+    {
+        await using var broker = await MosquittoServer.StartOrNullAsync();
+        if (broker is null)
+        {
+            return;
+        }
+
+        // A real overfill alarm from real data: S1 starts 85 % full, its overfill limit is lowered to 50 % for this test.
+        var plant = SimulatedPlant.PlantWithLimits(("S1", "OverfillPercent", 50));
+        var instance = Instance("cmd");
+        (string, string)[] settings = [.. Replay, ("Instance:PlantFile", plant)];
+        const string alarm = Site + "/S1/overfill";
+        var service = await ServiceUnderTest.StartAsync(broker.Port, instance, settings);
+        try
+        {
+            await using var observer = await TestMqtt.ConnectAsync(broker.Port, "obs-" + instance, "silowatch/v1/events/#");
+            await using var tool = await OperatorClient.ConnectAsync(broker.Port, "tool-" + instance);
+            var s1 = service.Ingest.Pipelines.Single(p => p.Silo.SiloId == "S1").Alarms!;
+            await using (SimulatedPlant.Start(broker.Port, "eccentric-discharge.json", speed: 20, plantPath: plant))
+            {
+                await TestMqtt.WaitForAsync(() => s1.Active.Any(a => a.AlarmId == alarm && a.State == AlarmStateName.Unacknowledged), "the overfill alarm of S1");
+            }
+
+            // Someone not on the list: refused, answered, logged, nothing changes and nothing is journaled for them.
+            await tool.CommandAsync(Site, "S1", "mallory", """{"id":"c1","action":"acknowledge","alarm":"overfill"}""");
+            await TestMqtt.WaitForAsync(() => Answers(observer).Any(a => a.Id == "c1"), "the answer to the unauthorised command");
+            var refused = Answers(observer).Single(a => a.Id == "c1");
+            Assert.Equal("command-refused", refused.Type);
+            Assert.Contains("not allowed", refused.Detail, StringComparison.Ordinal);
+            Assert.Equal(AlarmStateName.Unacknowledged, s1.Active.Single(a => a.AlarmId == alarm).State);
+
+            // No user property at all: refused too.
+            await tool.CommandAsync(Site, "S1", "", """{"id":"c2","action":"acknowledge","alarm":"overfill"}""");
+            await TestMqtt.WaitForAsync(() => Answers(observer).Any(a => a.Id == "c2"), "the answer to the anonymous command");
+            Assert.Equal("command-refused", Answers(observer).Single(a => a.Id == "c2").Type);
+
+            // The operator on the list: the state moves and the journal says who.
+            await tool.CommandAsync(Site, "S1", Operator, """{"id":"c3","action":"acknowledge","alarm":"brackenford/S1/overfill","comment":"seen, filling stopped"}""");
+            await TestMqtt.WaitForAsync(() => Answers(observer).Any(a => a.Id == "c3"), "the answer to the acknowledgement");
+            Assert.Equal("command-accepted", Answers(observer).Single(a => a.Id == "c3").Type);
+            Assert.Equal(AlarmStateName.Acknowledged, s1.Active.Single(a => a.AlarmId == alarm).State);
+            Assert.Contains(Transitions(observer), t => t.Alarm == alarm && t.To == "acknowledged" && t.By == Operator);
+
+            await tool.CommandAsync(Site, "S1", Operator, """{"id":"c4","action":"shelve","alarm":"overfill","duration":"00:30:00","reason":"level probe under test"}""");
+            await TestMqtt.WaitForAsync(() => Answers(observer).Any(a => a.Id == "c4"), "the answer to the shelve");
+            Assert.Equal(AlarmStateName.Shelved, s1.Active.Single(a => a.AlarmId == alarm).State);
+
+            var history = service.Journal.QueryAlarmHistory(Site, "S1", 0, long.MaxValue).Where(h => h.AlarmId == alarm).ToList();
+            Assert.Contains(history, h => h.ToState == "acknowledged" && h.User == Operator && h.Message.Contains("seen, filling stopped", StringComparison.Ordinal));
+            Assert.Contains(history, h => h.ToState == "shelved" && h.User == Operator && h.Message.Contains("level probe under test", StringComparison.Ordinal));
+            Assert.DoesNotContain(history, h => h.User == "mallory" || string.IsNullOrEmpty(h.User));
+        }
+        finally
+        {
+            await service.StopAsync();
+            await service.DisposeAsync();
+        }
+
+        // A restart resumes the alarm states from the journal: still shelved, by the same operator.
+        await using var restarted = await ServiceUnderTest.StartAsync(broker.Port, instance, settings);
+        var resumed = restarted.Ingest.Pipelines.Single(p => p.Silo.SiloId == "S1").Alarms!.Active.Single(a => a.AlarmId == alarm);
+        Assert.Equal(AlarmStateName.Shelved, resumed.State);
+        Assert.Equal(Operator, resumed.ShelvedBy);
+    }
+
+    private void Dump(TestMqtt observer)
+    {
+        foreach (var m in observer.Received.Where(m => m.Topic.StartsWith("silowatch/v1/events/", StringComparison.Ordinal)))
+        {
+            output.WriteLine(m.Payload.Length > 400 ? m.Payload[..400] : m.Payload);
+        }
+    }
+
+    private static string Instance(string what) => $"it-{what}-{Guid.NewGuid():N}"[..16];
+
+    private static bool IsAsymmetry(Transition t, string silo) => t.Alarm.StartsWith($"{Site}/{silo}/asymmetry-a1-", StringComparison.Ordinal);
+
+    private sealed record Transition(string Alarm, string From, string To, double? Value, double Setpoint, string By, string Message);
+
+    private sealed record Answer(string Type, string Id, string Detail);
+
+    private static List<Transition> Transitions(TestMqtt observer) =>
+    [
+        .. Events(observer).Where(e => e.GetProperty("type").GetString() == "alarm-transition").Select(e => new Transition(
+            e.GetProperty("alarm").GetString()!, e.GetProperty("from").GetString()!, e.GetProperty("to").GetString()!,
+            e.GetProperty("value").ValueKind == JsonValueKind.Number ? e.GetProperty("value").GetDouble() : null,
+            e.GetProperty("setpoint").GetDouble(), e.GetProperty("by").GetString()!, e.GetProperty("message").GetString()!)),
+    ];
+
+    private static List<Answer> Answers(TestMqtt observer) =>
+    [
+        .. Events(observer).Where(e => e.GetProperty("type").GetString() is "command-accepted" or "command-refused")
+            .Select(e => new Answer(e.GetProperty("type").GetString()!, e.GetProperty("id").GetString()!, e.GetProperty("detail").GetString()!)),
+    ];
+
+    private static IEnumerable<JsonElement> Events(TestMqtt observer) =>
+        observer.Received.Where(m => m.Topic.StartsWith("silowatch/v1/events/", StringComparison.Ordinal))
+            .Select(m => JsonDocument.Parse(m.Payload).RootElement);
+
+    private static List<string> RetainedAlarms(TestMqtt observer, string silo)
+    {
+        var last = observer.Received.LastOrDefault(m => m.Topic == $"silowatch/v1/alarms/{Site}/{silo}");
+        return last.Payload is null or ""
+            ? []
+            : [.. JsonDocument.Parse(last.Payload).RootElement.GetProperty("alarms").EnumerateArray().Select(a => a.GetProperty("alarm").GetString()!)];
+    }
+
+    private static double DirectionOf(string message)
+    {
+        var m = TowardDegrees().Match(message);
+        Assert.True(m.Success, $"no direction in: {message}");
+        return double.Parse(m.Groups[1].Value, CultureInfo.InvariantCulture);
+    }
+
+    private static double AngleBetween(double a, double b)
+    {
+        var d = Math.Abs(((a - b) % 360 + 360) % 360);
+        return Math.Min(d, 360 - d);
+    }
+
+    [GeneratedRegex(@"toward (\d+)°")]
+    private static partial Regex TowardDegrees();
+}
