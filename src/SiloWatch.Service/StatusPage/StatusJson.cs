@@ -33,7 +33,7 @@ public static class StatusJson
             }
 
             w.WriteStartArray("silos");
-            foreach (var p in pipelines)
+            foreach (var p in pipelines.OrderBy(p => p.Silo.Index))
             {
                 WriteSilo(w, p);
             }

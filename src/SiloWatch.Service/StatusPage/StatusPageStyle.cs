@@ -13,6 +13,7 @@ public static partial class StatusPageAssets
                   --accent: #8fb4e8; --good: #7cc48a; --warn: #e6b450; --bad: #ff8a7f; --shelved: #9a9a9a; }
         }
         * { box-sizing: border-box; }
+        [hidden] { display: none !important; }
         body { margin: 0; background: var(--paper); color: var(--ink); font-family: "DejaVu Sans", Verdana, sans-serif; line-height: 1.35; }
         .top { display: flex; flex-wrap: wrap; align-items: center; gap: .6rem 1.2rem; padding: .6rem 1rem; border-bottom: 3px solid var(--accent); }
         h1 { font-size: 1.3rem; margin: 0; letter-spacing: .02em; }

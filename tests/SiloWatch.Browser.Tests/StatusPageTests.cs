@@ -1,0 +1,131 @@
+using System.Net;
+using System.Security.Cryptography;
+using Microsoft.Extensions.DependencyInjection;
+using Microsoft.Playwright;
+using SiloWatch.Browser.Tests.Support;
+using SiloWatch.Monitoring.Alarms;
+using SiloWatch.Service.Ingest;
+using SiloWatch.Service.StatusPage;
+using SiloWatch.Storage;
+using Xunit.Abstractions;
+
+namespace SiloWatch.Browser.Tests;
+
+/// <summary>
+/// The status page in a real headless Chromium (Debian's, never downloaded), served by the running
+/// service and fed by the plant simulator.
+/// </summary>
+public sealed class StatusPageTests(ITestOutputHelper output)
+{
+    private const string Alarm = "brackenford/S1/overfill";
+
+    [Fact]
+    public async Task TheLivePageShowsChangingValuesAndAnAuthorisedOperatorAcknowledgesARealAlarm()
+    {
+        var chromium = Chromium();
+        if (chromium is null)
+        {
+            return;
+        }
+
+        // A real overfill alarm from real data: S1 starts 85 % full in this scenario, its limit is lowered to 50 % for the test.
+        var plant = LiveService.PlantWithLimit("S1", "OverfillPercent", 50);
+        var password = Convert.ToBase64String(RandomNumberGenerator.GetBytes(18));
+        await using var service = await LiveService.StartAsync("eccentric-discharge.json", speed: 5, plant,
+            ("StatusPage:Users:0:Name", "op-anna"),
+            ("StatusPage:Users:0:PasswordHash", OperatorPasswords.Hash(password, iterations: 100_000)));
+
+        using var playwright = await Playwright.CreateAsync();
+        await using var browser = await playwright.Chromium.LaunchAsync(new()
+        {
+            ExecutablePath = chromium,
+            Headless = true,
+            Args = ["--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run", "--disable-background-networking", "--disable-component-update", "--disable-sync"],
+        });
+        var page = await browser.NewPageAsync(new() { ViewportSize = new() { Width = 1400, Height = 1000 } });
+        var errors = new List<string>();
+        page.PageError += (_, e) => errors.Add(e);
+        await page.GotoAsync(service.BaseAddress.ToString());
+
+        // Live: the stream connects and the mass of S1 changes without a reload.
+        await Assertions.Expect(page.Locator("#link")).ToHaveAttributeAsync("data-state", "live", new() { Timeout = 30_000 });
+        var mass = page.Locator("[data-silo='brackenford/S1'] .mass .value");
+        await Assertions.Expect(mass).Not.ToHaveTextAsync("\u2014", new() { Timeout = 30_000 });
+        var first = await mass.TextContentAsync();
+        var asOf = page.Locator("[data-silo='brackenford/S1'] .quality .band");
+        var firstAsOf = await asOf.TextContentAsync();
+        await Assertions.Expect(asOf).Not.ToHaveTextAsync(firstAsOf!, new() { Timeout = 30_000 });
+        await WaitUntilAsync(async () => await mass.TextContentAsync() != first, "the mass of S1 to change on the page");
+        output.WriteLine($"S1 mass went from {first} t to {await mass.TextContentAsync()} t");
+        await Assertions.Expect(page.Locator("#caution")).ToContainTextAsync("not a safety function");
+
+        // The alarm, raised by the engine from the simulated level, appears; reading needs no login, acting does.
+        var row = page.Locator($"tr[data-alarm='{Alarm}']");
+        await Assertions.Expect(row).ToHaveAttributeAsync("data-state", "unacknowledged", new() { Timeout = 30_000 });
+        await Assertions.Expect(row.Locator("button.ack")).ToHaveCountAsync(0);
+        using (var http = new HttpClient { BaseAddress = service.BaseAddress })
+        {
+            var anonymous = await http.PostAsync($"api/alarms/brackenford/S1/overfill/ack", new StringContent("{}"));
+            Assert.Equal(HttpStatusCode.Unauthorized, anonymous.StatusCode);
+        }
+
+        await page.FillAsync("#loginName", "op-anna");
+        await page.FillAsync("#loginPassword", "not the password");
+        await page.ClickAsync("#login button[type=submit]");
+        await Assertions.Expect(page.Locator("#loginError")).ToContainTextAsync("wrong", new() { Timeout = 15_000 });
+
+        await page.FillAsync("#loginName", "op-anna");
+        await page.FillAsync("#loginPassword", password);
+        await page.ClickAsync("#login button[type=submit]");
+        await Assertions.Expect(page.Locator("#whoName")).ToHaveTextAsync("op-anna", new() { Timeout = 15_000 });
+        await Assertions.Expect(page.Locator("#login")).ToBeHiddenAsync();
+
+        await row.Locator("button.ack").ClickAsync(new() { Timeout = 15_000 });
+        await Assertions.Expect(row).ToHaveAttributeAsync("data-state", "acknowledged", new() { Timeout = 15_000 });
+        await Assertions.Expect(page.Locator("#actionResult")).ToContainTextAsync("unacknowledged -> acknowledged");
+
+        // The engine moved and the journal says who.
+        var s1 = service.Services.GetRequiredService<TelemetryIngest>().Pipelines.Single(p => p.Silo.SiloId == "S1").Alarms!;
+        Assert.Equal(AlarmStateName.Acknowledged, s1.Active.Single(a => a.AlarmId == Alarm).State);
+        var journal = service.Services.GetRequiredService<Journal>();
+        Assert.Contains(journal.QueryAlarmHistory("brackenford", "S1", 0, long.MaxValue), h => h.AlarmId == Alarm && h.ToState == "acknowledged" && h.User == "op-anna");
+
+        var folder = Path.Combine(AppContext.BaseDirectory, "screenshots");
+        Directory.CreateDirectory(folder);
+        var shot = Path.Combine(folder, "status-page.png");
+        await page.ScreenshotAsync(new() { Path = shot, FullPage = true });
+        await page.SetViewportSizeAsync(390, 844);
+        await page.ScreenshotAsync(new() { Path = Path.Combine(folder, "status-page-phone.png"), FullPage = true });
+        output.WriteLine($"screenshots in {folder}");
+        Assert.True(new FileInfo(shot).Length > 10_000, "the screenshot is not empty");
+        Assert.Empty(errors);
+    }
+
+    private static string? Chromium()
+    {
+        var path = Environment.GetEnvironmentVariable("SILOWATCH_TEST_CHROMIUM");
+        if (string.IsNullOrEmpty(path) && File.Exists("/usr/bin/chromium"))
+        {
+            path = "/usr/bin/chromium";
+        }
+
+        if (string.IsNullOrEmpty(path) || !File.Exists(path))
+        {
+            Assert.False(Environment.GetEnvironmentVariable("SILOWATCH_REQUIRE_SERVERS") == "1",
+                "chromium is required (SILOWATCH_REQUIRE_SERVERS=1): set SILOWATCH_TEST_CHROMIUM; tests/run.sh installs Debian's chromium");
+            return null;
+        }
+
+        return path;
+    }
+
+    private static async Task WaitUntilAsync(Func<Task<bool>> condition, string what)
+    {
+        var deadline = DateTime.UtcNow + TimeSpan.FromSeconds(30);
+        while (!await condition())
+        {
+            Assert.True(DateTime.UtcNow < deadline, $"timed out waiting for {what}");
+            await Task.Delay(100);
+        }
+    }
+}
