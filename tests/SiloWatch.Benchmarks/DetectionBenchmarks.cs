@@ -130,6 +130,7 @@ public static class DetectionDriver
         private readonly List<AlarmTransition> _transitions = [];
         private readonly List<WallAssessment> _history = [];
         private bool _keepHistory;
+        private WallAssessment? _lastAssessment;
 
         private double _massKg;
         private double _rateKgPerS;
@@ -189,16 +190,35 @@ public static class DetectionDriver
             _time.Now = _time.Now.AddHours(6 + (12 * _random.NextDouble()));
             _massKg = (0.6 + (0.35 * _random.NextDouble())) * _model.CapacityKg;
             Step(900, 0);
+            for (var i = 0; i < 900 && !(_watch.State == DischargeState.Idle && _lastAssessment?.StateChange is null); i++)
+            {
+                // A start-up transient of the inventory filter can read as a short fill: let it settle first.
+                Step(1, 0);
+            }
+
             _ratio = ratio;
             _directionDeg = 360 * _random.NextDouble();
             var rate = -(15 + (25 * _random.NextDouble()));
             var onset = NowMs;
             _transitions.Clear();
-            _keepHistory = ratio == 0;
+            _keepHistory = ratio == 0 || Environment.GetEnvironmentVariable("SW_DEBUG") is not null;
             Step(600, rate);
             var first = _transitions.FirstOrDefault(t => t.To == AlarmStateName.Unacknowledged && t.Condition.Contains("/asymmetry-a1/", StringComparison.Ordinal));
             if (first is null)
             {
+                if (Environment.GetEnvironmentVariable("SW_DEBUG") is not null)
+                {
+                    foreach (var a in _history.Where((_, i) => i % 60 == 0))
+                    {
+                        Console.WriteLine($"      miss t {(a.TimestampMs - onset) / 1000} {a.State} " + string.Join(" | ", a.Rings.Select(r => $"{r.Ring} good {r.GoodGauges} A1 {r.A1Ratio:0.000} {r.Note}")));
+                    }
+
+                    foreach (var rd in _monitor.Readings.Where(x => x.Quality != Quality.Good))
+                    {
+                        Console.WriteLine($"      reading {rd.SensorId} {rd.Quality} {rd.QualityReason}");
+                    }
+                }
+
                 return new DetectionResult(null, double.NaN);
             }
 
@@ -370,6 +390,7 @@ public static class DetectionDriver
             var inventory = _monitor.Evaluate(now);
             _watch.Update(_monitor.Readings);
             var assessment = _watch.Evaluate(now, inventory);
+            _lastAssessment = assessment;
             if (_keepHistory)
             {
                 _history.Add(assessment);

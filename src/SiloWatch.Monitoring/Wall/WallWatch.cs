@@ -598,8 +598,16 @@ public sealed class WallWatch
         snap.MassKg = massKg;
         foreach (var i in _gaugeSensors)
         {
+            // A gauge briefly not good (a held spike at the step a discharge starts with) keeps its last good value
+            // for the baseline, for up to the baseline lead.
             var slot = _slots[i];
-            snap.Strain[i] = Usable(slot, nowMs) ? slot.Value : double.NaN;
+            if (Usable(slot, nowMs))
+            {
+                slot.LastGoodValue = slot.Value;
+                slot.LastGoodMs = nowMs;
+            }
+
+            snap.Strain[i] = nowMs - slot.LastGoodMs <= (long)_options.BaselineLead.TotalMilliseconds ? slot.LastGoodValue : double.NaN;
             snap.Temperature[i] = slot.TemperatureC;
         }
 
@@ -786,6 +794,8 @@ public sealed class WallWatch
         public double ZeroMicro = double.NaN;
         public string Reason = "";
         public string BadKey = "";
+        public double LastGoodValue = double.NaN;
+        public long LastGoodMs = long.MinValue / 2;
     }
 
     private sealed class HistoryEntry(int sensors)
