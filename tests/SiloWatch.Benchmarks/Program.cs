@@ -1,10 +1,26 @@
 using BenchmarkDotNet.Running;
 using SiloWatch.Benchmarks;
 
-// Load drivers print figures of their own; everything else is BenchmarkDotNet (pick with --filter).
+// Load drivers and accuracy reports print figures of their own:
+//   ingest-load [messages] [samplesPerMessage]   telemetry through Mosquitto: service vs bare subscriber
+//   inventory-accuracy [runs]                    mass error and interval coverage against simulated truth
+//   detection [...]                              wall-load alarm detection rate, delay and false alarms
+// Everything else is BenchmarkDotNet (pick with --filter).
 if (args.Length > 0 && args[0] == "ingest-load")
 {
     return await IngestLoadDriver.RunAsync(args[1..]);
+}
+
+if (args.Length > 0 && args[0] == "inventory-accuracy")
+{
+    var runs = args.Length > 1 ? int.Parse(args[1], System.Globalization.CultureInfo.InvariantCulture) : 8;
+    Console.WriteLine(InventoryAccuracy.Run(runs));
+    return 0;
+}
+
+if (args.Length > 0 && args[0] == "detection")
+{
+    return DetectionDriver.Run(args[1..]);
 }
 
 BenchmarkSwitcher.FromAssembly(typeof(IngestLoadDriver).Assembly).Run(args);
