@@ -67,6 +67,8 @@ public sealed class StatusPageTests(ITestOutputHelper output)
         {
             var anonymous = await http.PostAsync($"api/alarms/brackenford/S1/overfill/ack", new StringContent("{}"));
             Assert.Equal(HttpStatusCode.Unauthorized, anonymous.StatusCode);
+            var listed = await http.GetStringAsync("api/alarms");
+            Assert.Contains("\"alarm\":\"" + Alarm + "\"", listed, StringComparison.Ordinal);
         }
 
         await page.FillAsync("#loginName", "op-anna");

@@ -197,6 +197,41 @@ public sealed partial class WallAlarmsThroughMosquittoTests(ITestOutputHelper ou
         Assert.Equal(Operator, resumed.ShelvedBy);
     }
 
+    [Fact]
+    public async Task ATareOverMqttByAnAllowedUserZeroesTheSiloAndIsJournaledWhileOthersAreRefused()
+    {
+        await using var broker = await MosquittoServer.StartOrNullAsync();
+        if (broker is null)
+        {
+            return;
+        }
+
+        var instance = Instance("tare");
+        await using var service = await ServiceUnderTest.StartAsync(broker.Port, instance, Replay);
+        await using var observer = await TestMqtt.ConnectAsync(broker.Port, "obs-" + instance, "silowatch/v1/events/#");
+        await using var tool = await OperatorClient.ConnectAsync(broker.Port, "tool-" + instance);
+        var f1 = service.Ingest.Pipelines.Single(p => p.Silo.SiloId == "F1");
+        await using (SimulatedPlant.Start(broker.Port, "eccentric-discharge.json", speed: 20))
+        {
+            await TestMqtt.WaitForAsync(() => f1.LastEstimate is { MassKg: > 50_000 }, "an estimate of F1 (half full in the scenario)");
+
+            await tool.CommandAsync(Site, "F1", "mallory", """{"id":"t1","action":"tare"}""");
+            await TestMqtt.WaitForAsync(() => Answers(observer).Any(a => a.Id == "t1"), "the answer to the unauthorised tare");
+            Assert.Equal("command-refused", Answers(observer).Single(a => a.Id == "t1").Type);
+
+            // The bin is not empty, but a tare says "take this as zero": the estimate then shows the change since.
+            await tool.CommandAsync(Site, "F1", Operator, """{"id":"t2","action":"tare","comment":"test: contents taken as zero"}""");
+            await TestMqtt.WaitForAsync(() => Answers(observer).Any(a => a.Id == "t2"), "the answer to the tare");
+            Assert.Equal("command-accepted", Answers(observer).Single(a => a.Id == "t2").Type);
+            await TestMqtt.WaitForAsync(() => f1.LastEstimate is { } e && Math.Abs(e.MassKg) < 5_000, "F1 near zero after the tare");
+        }
+
+        var tare = Assert.Single(service.Journal.QueryTares(Site, "F1", 0, long.MaxValue));
+        Assert.Equal(Operator, tare.User);
+        Assert.Equal("test: contents taken as zero", tare.Reason);
+        Assert.True(tare.TareKg > 50_000, $"the tare removed {tare.TareKg} kg");
+    }
+
     private void Dump(TestMqtt observer)
     {
         foreach (var m in observer.Received.Where(m => m.Topic.StartsWith("silowatch/v1/events/", StringComparison.Ordinal)))

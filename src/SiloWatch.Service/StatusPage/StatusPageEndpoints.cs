@@ -71,11 +71,17 @@ public static class StatusPageEndpoints
                 return Results.Problem($"silo {Clip(site)}/{Clip(silo)} is not watched by this instance", statusCode: 404);
             }
 
+            var alarmId = AlarmCommand.Qualify(alarm, site, silo);
+            if (!alarms.Definitions.Any(d => d.Id == alarmId))
+            {
+                return Results.Problem($"silo {site}/{silo} has no alarm '{Clip(alarm)}'", statusCode: 404);
+            }
+
             var body = await ReadBodyAsync(http).ConfigureAwait(false);
             var command = new AlarmCommand(
                 "http",
                 action == "ack" ? AlarmCommand.Acknowledge : action,
-                AlarmCommand.Qualify(alarm, site, silo),
+                alarmId,
                 user,
                 body.Duration,
                 body.Reason,
