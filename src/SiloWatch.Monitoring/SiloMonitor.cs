@@ -121,13 +121,16 @@ public sealed class SiloMonitor
         _drift = _cells.Length >= 2
             ? new ShareDriftDetector(_cells.Length, options.DriftLearningTime.TotalSeconds, options.DriftSmoothingTime.TotalSeconds, options.DriftShareTolerance)
             : null;
-        _structureKn = Units.MassKgToWeightKn(weighing.StructureMassKg);
-
         // Supports: the scale n/m of partial weighing and the leverage of an off-centre load on the weighed set.
         var n = weighing.SupportCount;
         var weighedSupports = _cells.Select(c => sensors[c].Support).Where(s => s >= 1 && s <= n).Distinct().ToArray();
         var m = weighedSupports.Length;
         _supportScale = _arrangement == WeighingArrangement.SomeSupports && m > 0 ? (double)n / m : 1.0;
+
+        // The empty structure's weight is shared equally by all n supports, so the weighed cells of a
+        // partially weighed silo carry m/n of it; floor cells carry the weighed floor or hopper itself.
+        _structureKn = Units.MassKgToWeightKn(weighing.StructureMassKg) *
+            (_arrangement == WeighingArrangement.SomeSupports && n > 0 ? (double)m / n : 1.0);
         foreach (var s in weighedSupports)
         {
             var a = Units.DegToRad(weighing.FirstSupportAngleDeg + (360.0 * (s - 1) / n));

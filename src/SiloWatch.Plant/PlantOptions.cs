@@ -147,7 +147,11 @@ public sealed class WeighingOptions
     /// <summary>Rated capacity of one support (leg, bearing), kN: the support-overload alarm compares with it.</summary>
     public double SupportCapacityKn { get; set; }
 
-    /// <summary>Mass of the empty structure carried by the weighed supports, kg (tare estimate before a commanded tare).</summary>
+    /// <summary>
+    /// Mass of the empty structure, kg: for AllSupports and SomeSupports the whole silo, shared
+    /// equally by all its supports (so m weighed of n carry m/n of it); for FloorOnly the floor or
+    /// hopper that stands on the cells. The tare estimate until a commanded tare.
+    /// </summary>
     public double StructureMassKg { get; set; }
 }
 

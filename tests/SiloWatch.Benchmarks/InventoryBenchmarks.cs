@@ -393,7 +393,9 @@ public sealed class InventorySimulation
         }
 
         _truthModel.ExpectedStrains(state, _strains);
-        var structureKn = Units.MassKgToWeightKn(weighing.StructureMassKg) / Math.Max(1, _cells);
+        // The structure is shared by all supports (PlantOptions: StructureMassKg); floor cells carry the floor's own.
+        var structureKn = Units.MassKgToWeightKn(weighing.StructureMassKg) /
+            Math.Max(1, weighing.Arrangement == WeighingArrangement.FloorOnly ? _cells : weighing.SupportCount);
         foreach (var s in _silo.Sensors)
         {
             if (Silent.Contains(s.Id) || s.Id == Failed)

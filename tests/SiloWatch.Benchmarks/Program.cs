@@ -4,6 +4,7 @@ using SiloWatch.Benchmarks;
 // Load drivers and accuracy reports print figures of their own:
 //   ingest-load [messages] [samplesPerMessage]   telemetry through Mosquitto: service vs bare subscriber
 //   inventory-accuracy [runs]                    mass error and interval coverage against simulated truth
+//   scenario-accuracy [scenario.json ...]        estimates against the simulator's ground truth per scenario
 //   detection [...]                              wall-load alarm detection rate, delay and false alarms
 // Everything else is BenchmarkDotNet (pick with --filter).
 if (args.Length > 0 && args[0] == "ingest-load")
@@ -16,6 +17,11 @@ if (args.Length > 0 && args[0] == "inventory-accuracy")
     var runs = args.Length > 1 ? int.Parse(args[1], System.Globalization.CultureInfo.InvariantCulture) : 8;
     Console.WriteLine(InventoryAccuracy.Run(runs));
     return 0;
+}
+
+if (args.Length > 0 && args[0] == "scenario-accuracy")
+{
+    return ScenarioAccuracyDriver.Run(args[1..]);
 }
 
 if (args.Length > 0 && args[0] == "detection")

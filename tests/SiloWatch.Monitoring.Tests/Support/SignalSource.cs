@@ -58,7 +58,9 @@ public sealed class SignalSource(SiloRef silo, SiloModel model, int seed = 1)
             switch (o.Kind)
             {
                 case SensorKind.LoadCell:
-                    var structure = Units.MassKgToWeightKn(weighing.StructureMassKg) / cells;
+                    // The structure is shared by all supports (PlantOptions: StructureMassKg); floor cells carry the floor's own.
+                    var structure = Units.MassKgToWeightKn(weighing.StructureMassKg) /
+                        (weighing.Arrangement == WeighingArrangement.FloorOnly ? cells : Math.Max(1, weighing.SupportCount));
                     var contents = weighing.Arrangement == WeighingArrangement.FloorOnly
                         ? loads.FloorLoadKn / cells
                         : _reactions[o.Support - 1];
