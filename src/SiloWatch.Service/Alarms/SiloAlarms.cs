@@ -159,6 +159,7 @@ public sealed class SiloAlarms
 
         RunWorkerCommands(monitor, nowMs);
         var assessment = _wall.Evaluate(nowMs, estimate);
+        IReadOnlyList<RingStatus> rings = [.. assessment.Rings.Select(r => new RingStatus(r.Ring, r.GoodGauges, r.Gauges, r.A1Ratio, r.AsymmetryDirectionDeg, r.MeasuredOverExpected, r.Note))];
         IReadOnlyList<AlarmState> active;
         lock (_gate)
         {
@@ -166,13 +167,13 @@ public sealed class SiloAlarms
             var transitions = _engine.Evaluate(assessment.Conditions);
             active = _engine.Active;
             Record(transitions, active, nowMs, force: false);
+
+            // Written under the lock, as a command's update is, so an older list never overwrites a newer one.
+            Volatile.Write(ref _status, new SiloStatus(_silo.SiteId, _silo.SiloId, _silo.Options.Name, nowMs, estimate, assessment.State, rings, active));
         }
 
         OnDischarge(assessment, estimate);
         WriteSeries(assessment, active, nowMs);
-        Volatile.Write(ref _status, new SiloStatus(_silo.SiteId, _silo.SiloId, _silo.Options.Name, nowMs, estimate, assessment.State,
-            [.. assessment.Rings.Select(r => new RingStatus(r.Ring, r.GoodGauges, r.Gauges, r.A1Ratio, r.AsymmetryDirectionDeg, r.MeasuredOverExpected, r.Note))],
-            active));
         _changed.Notify();
     }
 

@@ -82,9 +82,15 @@ public sealed class SiloPipeline : ITelemetryReceiver
     /// </summary>
     public InventoryEstimate? Publish(long nowMs, string instanceId)
     {
-        if (Alarms is { FollowSamples: true })
+        if (Alarms is { FollowSamples: true } alarms)
         {
-            return _newestSampleMs != long.MinValue && _newestSampleMs > _lastEvaluatedMs ? Evaluate(_newestSampleMs, instanceId) : LastEstimate;
+            if (_newestSampleMs == long.MinValue || _newestSampleMs <= _lastEvaluatedMs)
+            {
+                return LastEstimate;
+            }
+
+            _nextSampleEvaluationMs = _newestSampleMs + alarms.SampleIntervalMs;
+            return Evaluate(_newestSampleMs, instanceId);
         }
 
         return Evaluate(nowMs, instanceId);
