@@ -185,6 +185,7 @@ public static partial class StatusPageAssets
             const source = new EventSource('/api/status/stream');
             source.addEventListener('status', (ev) => {
               $('link').dataset.state = 'live';
+              document.body.dataset.link = 'live';
               $('link').textContent = 'live';
               state = JSON.parse(ev.data);
               if (state.caution) $('caution').textContent = state.caution;
@@ -192,6 +193,7 @@ public static partial class StatusPageAssets
             });
             source.addEventListener('error', () => {
               $('link').dataset.state = 'lost';
+              document.body.dataset.link = 'lost';
               $('link').textContent = 'connection lost: values not updating';
             });
           }

@@ -65,6 +65,7 @@ public static partial class StatusPageAssets
         .quality b { text-transform: uppercase; }
         .silo[data-quality="bad"] .big, .silo[data-quality="bad"] dl.figures dd { color: var(--muted); text-decoration: line-through 2px var(--bad); }
         .silo[data-quality="bad"] { background-image: repeating-linear-gradient(135deg, transparent 0 12px, rgba(163,35,27,.07) 12px 24px); }
+        body[data-link="lost"] .silo, body[data-link="lost"] .alarms { opacity: .5; filter: grayscale(1); }
         .rings { font-size: .85rem; color: var(--muted); margin: .2rem 0 0; padding-left: 1rem; }
         .silo-alarms { margin: .3rem 0 0; padding-left: 1rem; color: var(--bad); font-size: .9rem; }
         .foot { padding: .5rem 1rem 1rem; color: var(--muted); font-size: .85rem; }
