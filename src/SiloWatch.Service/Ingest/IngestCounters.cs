@@ -84,7 +84,7 @@ public sealed class IngestCounters
         Messages,
         Samples,
         RejectedTotal,
-        Reasons.Where(r => Rejected(r) > 0).ToDictionary(r => ReasonNames.Kebab(r), Rejected),
+        Reasons.Where(r => Rejected(r) > 0).ToDictionary(r => DeadLetterCodec.ReasonName(r), Rejected),
         QueueFullWaits,
         QueueDropped,
         MissingMessages,
@@ -111,27 +111,3 @@ public sealed record IngestCountersSnapshot(
     long Published,
     long OutboundDropped);
 
-/// <summary>kebab-case names of reject reasons, as the health endpoint and the dead-letter topic show them.</summary>
-public static class ReasonNames
-{
-    private static readonly Dictionary<RejectReason, string> Names = Enum.GetValues<RejectReason>().ToDictionary(r => r, ToKebab);
-
-    public static string Kebab(RejectReason reason) => Names[reason];
-
-    private static string ToKebab(RejectReason reason)
-    {
-        var name = reason.ToString();
-        var sb = new System.Text.StringBuilder(name.Length + 4);
-        for (var i = 0; i < name.Length; i++)
-        {
-            if (char.IsUpper(name[i]) && i > 0)
-            {
-                sb.Append('-');
-            }
-
-            sb.Append(char.ToLowerInvariant(name[i]));
-        }
-
-        return sb.ToString();
-    }
-}

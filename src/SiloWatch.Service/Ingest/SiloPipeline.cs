@@ -141,7 +141,7 @@ public sealed class SiloPipeline : ITelemetryReceiver
     void ITelemetryReceiver.OnRejected(TelemetryRejection rejection)
     {
         _counters.Reject(rejection.Reason);
-        _rejectLog.Warn(ReasonNames.Kebab(rejection.Reason), rejection.SiteId, rejection.SiloId, rejection.SensorId, rejection.Detail);
+        _rejectLog.Warn(DeadLetterCodec.ReasonName(rejection.Reason), rejection.SiteId, rejection.SiloId, rejection.SensorId, rejection.Detail);
         _outbound.Enqueue(new OutboundMessage(_deadLetterTopic, DeadLetterCodec.Encode(rejection, _receivedMs), Retain: false, MqttQualityOfServiceLevel.AtLeastOnce));
         _counters.DeadLetterQueued();
     }

@@ -18,6 +18,7 @@ public sealed class TelemetryIngest
     private readonly PartitionWorker[] _workers;
     private readonly Dictionary<string, SiloPipeline> _pipelinesByKey;
     private readonly Dictionary<string, SiloPipeline>.AlternateLookup<ReadOnlySpan<char>> _pipelinesBySpan;
+    private readonly System.Threading.Channels.ChannelWriter<IngestMessage>[] _writerBySilo; // by registry index, fixed at start-up
     private readonly bool _ownsAll;
     private readonly PlantRegistry _registry;
     private readonly TopicScheme _topics;
@@ -49,6 +50,7 @@ public sealed class TelemetryIngest
         _workers = [.. Enumerable.Range(0, partitions).Select(i =>
             new PartitionWorker(i, options.QueueCapacity, time, options.PublishInterval, options.Id, logger))];
         _pipelinesByKey = new Dictionary<string, SiloPipeline>(StringComparer.Ordinal);
+        _writerBySilo = new System.Threading.Channels.ChannelWriter<IngestMessage>[registry.Silos.Count];
         foreach (var silo in shard.Owned)
         {
             var monitor = new SiloMonitor(silo, models.For(silo), monitoring, time);
@@ -59,7 +61,9 @@ public sealed class TelemetryIngest
             }
 
             _pipelinesByKey[silo.Key] = pipeline;
-            _workers[ShardMap.ShardOf(silo.Key, partitions)].Add(pipeline);
+            var worker = _workers[ShardMap.ShardOf(silo.Key, partitions)];
+            worker.Add(pipeline);
+            _writerBySilo[silo.Index] = worker.Writer;
         }
 
         _pipelinesBySpan = _pipelinesByKey.GetAlternateLookup<ReadOnlySpan<char>>();
@@ -122,7 +126,7 @@ public sealed class TelemetryIngest
         }
 
         var message = IngestMessage.Copy(pipeline, e.ApplicationMessage.Payload, receivedMs);
-        var writer = _workers[ShardMap.ShardOf(pipeline.Silo.Key, _workers.Length)].Writer;
+        var writer = _writerBySilo[pipeline.Silo.Index];
         if (writer.TryWrite(message))
         {
             return;
@@ -154,7 +158,7 @@ public sealed class TelemetryIngest
         _topics.TryParseTelemetry(topic, out var site, out var silo);
         site = site.Length > 0 ? site : "invalid-topic";
         silo = silo.Length > 0 ? silo : "invalid-topic";
-        _rejectLog.Warn(ReasonNames.Kebab(RejectReason.UnknownSilo), site, silo, null, detail);
+        _rejectLog.Warn(DeadLetterCodec.ReasonName(RejectReason.UnknownSilo), site, silo, null, detail);
         var rejection = new TelemetryRejection(RejectReason.UnknownSilo, detail, site, silo, null, null, null, topic.Length > 200 ? topic[..200] : topic);
         _outbound.Enqueue(new OutboundMessage(_topics.DeadLetter(site, silo), DeadLetterCodec.Encode(rejection, _time.GetUtcNow().ToUnixTimeMilliseconds()),
             false, MqttQualityOfServiceLevel.AtLeastOnce));
