@@ -46,6 +46,19 @@ public sealed partial class Journal : IDisposable
         }
     }
 
+    /// <summary>Opens a journal that must exist already (review tools: a wrong path must not create an empty journal).</summary>
+    /// <exception cref="FileNotFoundException">No file at <paramref name="path"/>.</exception>
+    public static Journal OpenExisting(string path, TimeProvider timeProvider)
+    {
+        ArgumentException.ThrowIfNullOrWhiteSpace(path);
+        if (!File.Exists(path))
+        {
+            throw new FileNotFoundException($"no journal at {System.IO.Path.GetFullPath(path)}", path);
+        }
+
+        return new Journal(path, timeProvider);
+    }
+
     /// <summary>The schema version this program writes.</summary>
     public static int SchemaVersion => JournalSchema.CurrentVersion;
 
@@ -66,7 +79,7 @@ public sealed partial class Journal : IDisposable
     {
         ArgumentNullException.ThrowIfNull(record);
         return Insert(
-            "INSERT INTO events(site, silo, started_ms, ended_ms, mass_at_start_kg, mass_out_kg, mean_rate_kg_s, peak_rate_kg_s, max_asymmetry_ratio, asymmetry_direction_deg, details_json) VALUES($site, $silo, $start, $end, $m0, $out, $mean, $peak, $asym, $dir, $details)",
+            "INSERT INTO events(" + EventColumns + ") VALUES($site, $silo, $start, $end, $m0, $out, $mean, $peak, $asym, $dir, $details, $a2, $pom, $moe, $prio, $raised)",
             EventParameters(record));
     }
 
@@ -76,7 +89,7 @@ public sealed partial class Journal : IDisposable
     {
         ArgumentNullException.ThrowIfNull(record);
         var changed = NonQuery(
-            "UPDATE events SET site=$site, silo=$silo, started_ms=$start, ended_ms=$end, mass_at_start_kg=$m0, mass_out_kg=$out, mean_rate_kg_s=$mean, peak_rate_kg_s=$peak, max_asymmetry_ratio=$asym, asymmetry_direction_deg=$dir, details_json=$details WHERE id=$id",
+            "UPDATE events SET site=$site, silo=$silo, started_ms=$start, ended_ms=$end, mass_at_start_kg=$m0, mass_out_kg=$out, mean_rate_kg_s=$mean, peak_rate_kg_s=$peak, max_asymmetry_ratio=$asym, asymmetry_direction_deg=$dir, details_json=$details, max_a2_ratio=$a2, max_peak_over_mean=$pom, max_measured_over_expected=$moe, highest_priority=$prio, alarms_raised=$raised WHERE id=$id",
             [.. EventParameters(record), ("$id", record.Id)]);
         if (changed == 0)
         {
@@ -94,9 +107,46 @@ public sealed partial class Journal : IDisposable
 
     /// <summary>Events overlapping [fromMs, toMs), oldest first; site and silo null match all.</summary>
     public IReadOnlyList<DischargeEventRecord> QueryEvents(string? siteId, string? siloId, long fromMs, long toMs, int limit = 10_000) =>
-        Query(
-            EventSelect + " WHERE ($site IS NULL OR site = $site) AND ($silo IS NULL OR silo = $silo) AND started_ms < $to AND (ended_ms IS NULL OR ended_ms >= $from) ORDER BY started_ms, id LIMIT $limit",
-            ReadEvent, ("$site", siteId), ("$silo", siloId), ("$from", fromMs), ("$to", toMs), ("$limit", limit));
+        QueryEvents(new EventQuery(siteId, siloId, fromMs, toMs, Limit: limit));
+
+    /// <summary>Events matching every filter of <paramref name="query"/>, oldest first.</summary>
+    public IReadOnlyList<DischargeEventRecord> QueryEvents(EventQuery query)
+    {
+        ArgumentNullException.ThrowIfNull(query);
+        return Query(
+            EventSelect + " WHERE ($site IS NULL OR site = $site) AND ($silo IS NULL OR silo = $silo) AND started_ms < $to AND (ended_ms IS NULL OR ended_ms >= $from)"
+                + " AND ($prio IS NULL OR (highest_priority IS NOT NULL AND highest_priority <= $prio)) AND ($asym IS NULL OR max_asymmetry_ratio >= $asym)"
+                + " AND ($finished = 0 OR ended_ms IS NOT NULL) ORDER BY started_ms, id LIMIT $limit",
+            ReadEvent, ("$site", query.SiteId), ("$silo", query.SiloId), ("$from", query.FromMs), ("$to", query.ToMs), ("$prio", query.HighestPriorityAtMost),
+            ("$asym", query.MinAsymmetryRatio), ("$finished", query.FinishedOnly ? 1 : 0), ("$limit", query.Limit));
+    }
+
+    /// <summary>Saves (replaces) the capture of an event's series, compressed (<see cref="EventCaptureCodec"/>).</summary>
+    /// <exception cref="KeyNotFoundException">No event has that id.</exception>
+    public void SaveCapture(long eventId, EventCapture capture)
+    {
+        ArgumentNullException.ThrowIfNull(capture);
+        if (GetEvent(eventId) is null)
+        {
+            throw new KeyNotFoundException($"no discharge event with id {eventId}");
+        }
+
+        NonQuery(
+            "INSERT INTO event_captures(event_id, format, frames, channels, data) VALUES($id, $format, $frames, $channels, $data) ON CONFLICT(event_id) DO UPDATE SET format = excluded.format, frames = excluded.frames, channels = excluded.channels, data = excluded.data",
+            [("$id", eventId), ("$format", EventCaptureCodec.Format), ("$frames", capture.Frames.Count), ("$channels", capture.Channels.Count), ("$data", EventCaptureCodec.Encode(capture))]);
+    }
+
+    /// <summary>The capture of an event, or null when none was stored.</summary>
+    /// <exception cref="InvalidDataException">The stored capture is damaged or of an unknown format.</exception>
+    public EventCapture? LoadCapture(long eventId)
+    {
+        var blob = Query("SELECT data FROM event_captures WHERE event_id = $id", r => (byte[])r.GetValue(0), ("$id", eventId)).FirstOrDefault();
+        return blob is null ? null : EventCaptureCodec.Decode(blob);
+    }
+
+    /// <summary>Stored size of an event's capture in bytes (compressed), 0 when none.</summary>
+    public long CaptureBytes(long eventId) =>
+        Query("SELECT length(data) FROM event_captures WHERE event_id = $id", r => r.GetInt64(0), ("$id", eventId)).FirstOrDefault();
 
     /// <summary>Alarm transitions in [fromMs, toMs), oldest first; site and silo null match all.</summary>
     public IReadOnlyList<AlarmTransitionRecord> QueryAlarmHistory(string? siteId, string? siloId, long fromMs, long toMs, int limit = 100_000) =>
@@ -172,8 +222,10 @@ public sealed partial class Journal : IDisposable
         }
     }
 
-    private const string EventSelect =
-        "SELECT id, site, silo, started_ms, ended_ms, mass_at_start_kg, mass_out_kg, mean_rate_kg_s, peak_rate_kg_s, max_asymmetry_ratio, asymmetry_direction_deg, details_json FROM events";
+    private const string EventColumns =
+        "site, silo, started_ms, ended_ms, mass_at_start_kg, mass_out_kg, mean_rate_kg_s, peak_rate_kg_s, max_asymmetry_ratio, asymmetry_direction_deg, details_json, max_a2_ratio, max_peak_over_mean, max_measured_over_expected, highest_priority, alarms_raised";
+
+    private const string EventSelect = "SELECT id, " + EventColumns + " FROM events";
 
     private static DischargeEventRecord ReadEvent(SqliteDataReader r) => new()
     {
@@ -189,12 +241,18 @@ public sealed partial class Journal : IDisposable
         MaxAsymmetryRatio = r.GetDouble(9),
         AsymmetryDirectionDeg = r.GetDouble(10),
         DetailsJson = r.GetString(11),
+        MaxA2Ratio = NullableReal(r, 12),
+        MaxPeakOverMean = NullableReal(r, 13),
+        MaxMeasuredOverExpected = NullableReal(r, 14),
+        HighestPriority = r.IsDBNull(15) ? null : r.GetInt32(15),
+        AlarmsRaised = r.GetInt32(16),
     };
 
     private static (string, object?)[] EventParameters(DischargeEventRecord e) =>
     [
         ("$site", e.SiteId), ("$silo", e.SiloId), ("$start", e.StartedMs), ("$end", e.EndedMs), ("$m0", e.MassAtStartKg), ("$out", e.MassOutKg),
         ("$mean", e.MeanRateKgPerS), ("$peak", e.PeakRateKgPerS), ("$asym", e.MaxAsymmetryRatio), ("$dir", e.AsymmetryDirectionDeg), ("$details", e.DetailsJson),
+        ("$a2", Real(e.MaxA2Ratio)), ("$pom", Real(e.MaxPeakOverMean)), ("$moe", Real(e.MaxMeasuredOverExpected)), ("$prio", e.HighestPriority), ("$raised", e.AlarmsRaised),
     ];
 
     // SQLite has no NaN: a missing number is stored as NULL and read back as NaN.

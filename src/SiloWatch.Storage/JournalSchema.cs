@@ -78,6 +78,22 @@ internal static class JournalSchema
         CREATE INDEX calibrations_by_silo_time ON calibrations(site, silo, ts_ms);
         CREATE INDEX tares_by_silo_time ON tares(site, silo, ts_ms);
         """,
+
+        // 4: the severity of an event as columns (for the review filters) and its capture of the silo's series.
+        """
+        ALTER TABLE events ADD COLUMN max_a2_ratio REAL;
+        ALTER TABLE events ADD COLUMN max_peak_over_mean REAL;
+        ALTER TABLE events ADD COLUMN max_measured_over_expected REAL;
+        ALTER TABLE events ADD COLUMN highest_priority INTEGER;
+        ALTER TABLE events ADD COLUMN alarms_raised INTEGER NOT NULL DEFAULT 0;
+        CREATE TABLE event_captures(
+            event_id INTEGER PRIMARY KEY REFERENCES events(id) ON DELETE CASCADE,
+            format INTEGER NOT NULL,
+            frames INTEGER NOT NULL,
+            channels INTEGER NOT NULL,
+            data BLOB NOT NULL);
+        CREATE INDEX events_by_priority ON events(highest_priority);
+        """,
     ];
 
     public static int CurrentVersion => Migrations.Length;

@@ -1,13 +1,14 @@
 using SiloWatch.Monitoring.Alarms;
 using SiloWatch.Monitoring.Wall;
 using SiloWatch.Service.Alarms;
+using SiloWatch.Service.Events;
 using SiloWatch.Service.StatusPage;
 
 namespace SiloWatch.Service.Hosting;
 
 /// <summary>
 /// Wall watch, alarms, operator commands and the status page. Sections: WallWatch, Alarms
-/// (engine; Alarms:Definitions for delays and deadbands), Evaluation, Commands, StatusPage.
+/// (engine; Alarms:Definitions for delays and deadbands), Evaluation, Events (discharge event records), Commands, StatusPage.
 /// </summary>
 public static class AlarmsSetup
 {
@@ -20,6 +21,7 @@ public static class AlarmsSetup
         services.AddOptions<AlarmEngineOptions>().Bind(config.GetSection(AlarmEngineOptions.SectionName));
         services.AddOptions<AlarmDefinitionOptions>().Bind(config.GetSection(AlarmEngineOptions.SectionName + ":Definitions"));
         services.AddOptions<EvaluationOptions>().Bind(config.GetSection(EvaluationOptions.SectionName)).ValidateOnStart();
+        services.AddOptions<EventRecordingOptions>().Bind(config.GetSection(EventRecordingOptions.SectionName)).ValidateDataAnnotations().ValidateOnStart();
         services.AddOptions<CommandOptions>().Bind(config.GetSection(CommandOptions.SectionName)).ValidateDataAnnotations().ValidateOnStart();
         services.AddSingleton<SiteAlarmCounts>();
         services.AddSingleton<ChangeSignal>();

@@ -6,6 +6,7 @@ using SiloWatch.Monitoring;
 using SiloWatch.Monitoring.Alarms;
 using SiloWatch.Monitoring.Wall;
 using SiloWatch.Plant;
+using SiloWatch.Service.Events;
 using SiloWatch.Service.Ingest;
 using SiloWatch.Storage;
 
@@ -55,21 +56,22 @@ public sealed class SiloAlarms
     private readonly SeriesKey?[] _ringSeries;
     private readonly long _countIntervalMs;
     private readonly ConcurrentQueue<AlarmCommand> _forWorker = new();
+    private readonly DischargeEventRecorder _events;
     private string _publishedSignature = "\0";
     private long _publishedMs = long.MinValue;
     private (int, int, int) _lastCounts = (-1, -1, -1);
     private long _countsWrittenMs = long.MinValue;
-    private long? _openEventId;
-    private double _peakDischargeRateKgPerS;
     private SiloStatus _status;
 
     public SiloAlarms(SiloRef silo, WallWatch wall, IReadOnlyList<AlarmDefinition> definitions, AlarmEngineOptions engineOptions,
-        EvaluationOptions evaluation, SiloAlarmsContext context)
+        EvaluationOptions evaluation, SiloAlarmsContext context, DischargeEventRecorder events)
     {
         ArgumentNullException.ThrowIfNull(silo);
         ArgumentNullException.ThrowIfNull(context);
+        ArgumentNullException.ThrowIfNull(events);
         _silo = silo;
         _wall = wall;
+        _events = events;
         _time = context.Time;
         _clock = new SiloClock(_time.GetUtcNow().ToUnixTimeMilliseconds());
         _engine = new AlarmEngine(definitions, _clock, engineOptions);
@@ -172,7 +174,8 @@ public sealed class SiloAlarms
             Volatile.Write(ref _status, new SiloStatus(_silo.SiteId, _silo.SiloId, _silo.Options.Name, nowMs, estimate, assessment.State, rings, active));
         }
 
-        OnDischarge(assessment, estimate);
+        OnDischarge(assessment);
+        _events.OnEvaluated(monitor, assessment, estimate, nowMs);
         WriteSeries(assessment, active, nowMs);
         _changed.Notify();
     }
@@ -293,7 +296,7 @@ public sealed class SiloAlarms
             }
         }
 
-        _openEventId = _journal.FindOpenEvent(_silo.SiteId, _silo.SiloId)?.Id;
+        _events.Restore();
         lock (_gate)
         {
             _status = _status with { Alarms = _engine.Active };
@@ -415,71 +418,15 @@ public sealed class SiloAlarms
         }
     }
 
-    private void OnDischarge(WallAssessment a, InventoryEstimate estimate)
+    private void OnDischarge(WallAssessment a)
     {
         if (a.StateChange is { } change)
         {
             _outbound.Enqueue(new OutboundMessage(_eventsTopic, AlarmPayloads.DischargeState(_silo.SiteId, _silo.SiloId, change, a.MassKg, _instanceId),
                 Retain: false, MqttQualityOfServiceLevel.AtLeastOnce));
             _journal.SaveSnapshot(_silo.Key, WallSnapshotKind, JsonSerializer.Serialize(_wall.Snapshot(a.TimestampMs), SnapshotJson));
-            if (change.To == DischargeState.Discharging && change.From != DischargeState.Settling && _openEventId is null)
-            {
-                _peakDischargeRateKgPerS = 0;
-                _openEventId = _journal.AppendEvent(new DischargeEventRecord
-                {
-                    SiteId = _silo.SiteId,
-                    SiloId = _silo.SiloId,
-                    StartedMs = a.DischargeOnsetMs ?? change.OnsetMs,
-                    MassAtStartKg = double.IsFinite(a.MassKg) ? a.MassKg : 0,
-                });
-            }
-        }
-
-        if (a.State == DischargeState.Discharging && double.IsFinite(estimate.RateKgPerS))
-        {
-            _peakDischargeRateKgPerS = Math.Max(_peakDischargeRateKgPerS, -estimate.RateKgPerS);
-        }
-
-        if (a.FinishedDischarge is { } d)
-        {
-            var peak = d.Rings.Where(r => double.IsFinite(r.MaxA1Ratio)).OrderByDescending(r => r.MaxA1Ratio).FirstOrDefault();
-            var record = new DischargeEventRecord
-            {
-                Id = _openEventId ?? 0,
-                SiteId = d.SiteId,
-                SiloId = d.SiloId,
-                StartedMs = d.OnsetMs,
-                EndedMs = d.EndMs,
-                MassAtStartKg = Finite(d.MassAtStartKg),
-                MassOutKg = Finite(d.MassAtStartKg - d.MassAtEndKg),
-                MeanRateKgPerS = Finite(-d.MeanRateKgPerS),
-                PeakRateKgPerS = _peakDischargeRateKgPerS,
-                MaxAsymmetryRatio = peak is null ? 0 : peak.MaxA1Ratio,
-                AsymmetryDirectionDeg = peak is null ? 0 : Finite(peak.DirectionAtMaxDeg),
-                DetailsJson = System.Text.Encoding.UTF8.GetString(AlarmPayloads.Discharge(d, _openEventId ?? 0, _instanceId)),
-            };
-            try
-            {
-                if (_openEventId is { } id)
-                {
-                    _journal.UpdateEvent(record);
-                }
-                else
-                {
-                    _openEventId = _journal.AppendEvent(record);
-                }
-            }
-            catch (KeyNotFoundException)
-            {
-                _openEventId = _journal.AppendEvent(record with { Id = 0 });
-            }
-
-            _outbound.Enqueue(new OutboundMessage(_eventsTopic, AlarmPayloads.Discharge(d, _openEventId ?? 0, _instanceId), Retain: false, MqttQualityOfServiceLevel.AtLeastOnce));
-            _openEventId = null;
         }
     }
-
-    private static double Finite(double x) => double.IsFinite(x) ? x : 0;
 
     private void WriteSeries(WallAssessment a, IReadOnlyList<AlarmState> active, long nowMs)
     {

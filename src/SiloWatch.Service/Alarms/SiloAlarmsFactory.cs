@@ -4,6 +4,7 @@ using SiloWatch.Messaging;
 using SiloWatch.Monitoring.Alarms;
 using SiloWatch.Monitoring.Wall;
 using SiloWatch.Plant;
+using SiloWatch.Service.Events;
 using SiloWatch.Service.Hosting;
 using SiloWatch.Service.Ingest;
 using SiloWatch.Storage;
@@ -18,6 +19,7 @@ public sealed class SiloAlarmsFactory(
     IOptions<EvaluationOptions> evaluation,
     IOptions<CommandOptions> commands,
     IOptions<InstanceOptions> instance,
+    IOptions<EventRecordingOptions> events,
     Journal journal,
     OutboundQueue outbound,
     ITimeSeriesSink sink,
@@ -35,8 +37,10 @@ public sealed class SiloAlarmsFactory(
         ArgumentNullException.ThrowIfNull(silo);
         var context = new SiloAlarmsContext(journal, outbound, sink, series, counts, changed, topics, time, instance.Value.Id,
             loggers.CreateLogger("SiloWatch.Service.Alarms.SiloAlarms"));
+        var recorder = new DischargeEventRecorder(silo, model, events.Value, wall.Value, new DischargeEventContext(journal, outbound,
+            topics.Events(silo.SiteId, silo.SiloId), instance.Value.Id, loggers.CreateLogger<DischargeEventRecorder>()));
         var alarms = new SiloAlarms(silo, new WallWatch(silo, model, wall.Value), AlarmDefinitions.ForSilo(silo, model, definitions.Value),
-            engine.Value, evaluation.Value, context);
+            engine.Value, evaluation.Value, context, recorder);
         alarms.Restore();
         return alarms;
     }
