@@ -6,6 +6,7 @@ var root = new RootCommand("silowatch: tools for the SiloWatch silo monitoring s
     VerifyCommand.Create(),
     ProfileCommand.Create(),
     AlarmsCommand.Create(),
+    EventsCommand.Create(),
 };
 
 return await root.Parse(args).InvokeAsync();
