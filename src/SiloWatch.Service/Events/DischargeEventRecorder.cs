@@ -216,11 +216,6 @@ public sealed class DischargeEventRecorder
     private void Follow(SiloMonitor monitor, WallAssessment a, InventoryEstimate estimate, long nowMs)
     {
         var t = _tally;
-        if (estimate.Quality != Quality.Bad && double.IsFinite(estimate.RateKgPerS))
-        {
-            t.PeakRateKgPerS = Math.Max(t.PeakRateKgPerS, -estimate.RateKgPerS);
-        }
-
         t.Estimates[(int)estimate.Quality]++;
         for (var i = 0; i < _silo.Sensors.Count; i++)
         {
@@ -326,6 +321,13 @@ public sealed class DischargeEventRecorder
             notes);
 
         var peak = d.Rings.Where(r => double.IsFinite(r.MaxA1Ratio)).OrderByDescending(r => r.MaxA1Ratio).FirstOrDefault();
+        var peakRate = capture is null ? double.NaN : PeakRate(capture, d.OnsetMs, d.EndMs, (long)_options.PeakRateWindow.TotalMilliseconds);
+        if (!double.IsFinite(peakRate))
+        {
+            peakRate = Finite(-d.MeanRateKgPerS); // a flow shorter than the window: its mean is its peak
+            notes.Add("the flow was shorter than the peak-rate window: the peak rate is the mean rate");
+        }
+
         var record = new DischargeEventRecord
         {
             Id = _openEventId ?? 0,
@@ -336,7 +338,7 @@ public sealed class DischargeEventRecorder
             MassAtStartKg = Finite(d.MassAtStartKg),
             MassOutKg = Finite(d.MassAtStartKg - d.MassAtEndKg),
             MeanRateKgPerS = Finite(-d.MeanRateKgPerS),
-            PeakRateKgPerS = t.PeakRateKgPerS,
+            PeakRateKgPerS = peakRate,
             MaxAsymmetryRatio = peak is null ? 0 : peak.MaxA1Ratio,
             AsymmetryDirectionDeg = peak is null ? 0 : Finite(peak.DirectionAtMaxDeg),
             MaxA2Ratio = MaxOf(d.Rings.Select(r => r.MaxA2Ratio)),
@@ -477,6 +479,34 @@ public sealed class DischargeEventRecorder
         return points;
     }
 
+    /// <summary>Highest mean outflow over any window of <paramref name="windowMs"/> inside [from, to], from the captured mass, kg/s; NaN when no window fits.</summary>
+    public static double PeakRate(EventCapture capture, long fromMs, long toMs, long windowMs)
+    {
+        ArgumentNullException.ThrowIfNull(capture);
+        var m = capture.IndexOf("mass_kg");
+        var frames = capture.Frames.Where(f => f.TimestampMs >= fromMs && f.TimestampMs <= toMs && float.IsFinite(f.Values[m])).ToArray();
+        var best = double.NaN;
+        var j = 0;
+        for (var i = 0; i < frames.Length; i++)
+        {
+            while (j < frames.Length && frames[j].TimestampMs - frames[i].TimestampMs < windowMs)
+            {
+                j++;
+            }
+
+            if (j >= frames.Length)
+            {
+                break;
+            }
+
+            var seconds = (frames[j].TimestampMs - frames[i].TimestampMs) / 1000.0;
+            var rate = (frames[i].Values[m] - frames[j].Values[m]) / seconds;
+            best = double.IsNaN(best) ? rate : Math.Max(best, rate);
+        }
+
+        return best;
+    }
+
     private static double ExpectedForce(SensorKind kind, WallPoint wall) => kind == SensorKind.HoopStrain ? wall.HoopForceKnPerM : wall.AxialForceKnPerM;
 
     // Highest value of the fitted ring pattern, load sense (every 2 degrees).
@@ -580,8 +610,6 @@ public sealed class DischargeEventRecorder
         public long StartedMs { get; init; }
 
         public double MassAtStartKg { get; init; }
-
-        public double PeakRateKgPerS { get; set; }
 
         public long[] Readings { get; } = new long[3];
 

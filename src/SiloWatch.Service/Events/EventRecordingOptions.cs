@@ -26,6 +26,12 @@ public sealed class EventRecordingOptions
     [Range(16, 1_000_000)]
     public int MaxCaptureFrames { get; set; } = 7200;
 
+    /// <summary>
+    /// The peak rate of an event is the highest mean outflow over any window of this length within the flow
+    /// (from the captured mass), so that the estimator's transient at a start does not count as a peak. Default 60 s.
+    /// </summary>
+    public TimeSpan PeakRateWindow { get; set; } = TimeSpan.FromSeconds(60);
+
     /// <summary>Height step of the expected load profile stored with each event, m. Default 0.5.</summary>
     [Range(0.05, 100)]
     public double ProfileStepM { get; set; } = 0.5;
