@@ -121,6 +121,12 @@ internal static class EventsCommand
                 WriteTable(ReviewedEvent.AlarmHeader, alarms);
             }
 
+            if (e.FaultRows() is { Count: > 0 } faults)
+            {
+                Console.Out.WriteLine();
+                WriteTable(ReviewedEvent.FaultHeader, faults);
+            }
+
             foreach (var note in e.Details?.Notes ?? [])
             {
                 Console.Out.WriteLine("note: " + note);

@@ -70,8 +70,7 @@ public static class HtmlReport
             }
             else
             {
-                Table(html, "faults", ["sensor", "uncertain readings", "bad readings", "first reason"],
-                    [.. d.Quality.SensorsAtFault.Select(f => new[] { f.Sensor, f.UncertainReadings.ToString(CultureInfo.InvariantCulture), f.BadReadings.ToString(CultureInfo.InvariantCulture), f.Reason })]);
+                Table(html, "faults", ReviewedEvent.FaultHeader, e.FaultRows());
             }
 
             foreach (var note in d.Notes)

@@ -104,14 +104,24 @@ public sealed record ReviewedEvent(DischargeEventRecord Record, DischargeEventDe
                 Number(r.MaxA1Ratio, "0.000"), Number(r.DirectionAtMaxA1Deg, "0"), Number(r.MaxA2Ratio, "0.000"), Number(r.MaxPeakOverMean, "0.00"),
             })];
 
-    public static readonly string[] AlarmHeader = ["raised", "alarm", "priority", "peak value", "setpoint", "state at end"];
+    public static readonly string[] AlarmHeader = ["raised", "alarm", "priority", "value when raised", "setpoint", "state at end"];
 
     public IReadOnlyList<string[]> AlarmRows() =>
         Details is null
             ? []
             : [.. Details.Alarms.Select(a => new[]
             {
-                Time(a.RaisedMs), a.Alarm, a.Priority.ToString(CultureInfo.InvariantCulture), Number(a.PeakValue, "0.###"), Number(a.Setpoint, "0.###"), a.StateAtEnd,
+                Time(a.RaisedMs), a.Alarm, a.Priority.ToString(CultureInfo.InvariantCulture), Number(a.ValueWhenRaised, "0.###"), Number(a.Setpoint, "0.###"), a.StateAtEnd,
+            })];
+
+    public static readonly string[] FaultHeader = ["sensor", "uncertain readings", "bad readings", "first reason"];
+
+    public IReadOnlyList<string[]> FaultRows() =>
+        Details is null
+            ? []
+            : [.. Details.Quality.SensorsAtFault.Select(f => new[]
+            {
+                f.Sensor, f.UncertainReadings.ToString(CultureInfo.InvariantCulture), f.BadReadings.ToString(CultureInfo.InvariantCulture), f.Reason,
             })];
 
     private static string Percent(double share) => (share * 100).ToString("0.0", CultureInfo.InvariantCulture) + " %";

@@ -114,8 +114,8 @@ public sealed record PatternHarmonic(int Order, double Cos, double Sin, double A
 /// <param name="ChangeMicro">Change since the baseline in the load sense (axial compression, hoop tension positive); null when the gauge was not usable.</param>
 public sealed record GaugeChange(string Sensor, double AngleDeg, double? ChangeMicro);
 
-/// <summary>An alarm raised during the event (from the alarm journal), with its worst value and where it stood at the end.</summary>
-public sealed record EventAlarm(string Alarm, int Priority, long RaisedMs, double? PeakValue, double? Setpoint, string StateAtEnd, string Message);
+/// <summary>An alarm raised during the event (from the alarm journal): when, its value then, and where it stood at the end of the event.</summary>
+public sealed record EventAlarm(string Alarm, int Priority, long RaisedMs, double? ValueWhenRaised, double? Setpoint, string StateAtEnd, string Message);
 
 /// <summary>How good the data was during the event: shares of sensor readings judged at each evaluation, and the sensors at fault.</summary>
 /// <param name="Readings">Sensor readings judged (one per sensor per evaluation).</param>

@@ -22,7 +22,7 @@ public sealed class StatusPageTests(ITestOutputHelper output)
     [Fact]
     public async Task TheLivePageShowsChangingValuesAndAnAuthorisedOperatorAcknowledgesARealAlarm()
     {
-        var chromium = Chromium();
+        var chromium = HeadlessChromium.Locate();
         if (chromium is null)
         {
             return;
@@ -36,12 +36,7 @@ public sealed class StatusPageTests(ITestOutputHelper output)
             ("StatusPage:Users:0:PasswordHash", OperatorPasswords.Hash(password, iterations: 100_000)));
 
         using var playwright = await Playwright.CreateAsync();
-        await using var browser = await playwright.Chromium.LaunchAsync(new()
-        {
-            ExecutablePath = chromium,
-            Headless = true,
-            Args = ["--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run", "--disable-background-networking", "--disable-component-update", "--disable-sync"],
-        });
+        await using var browser = await HeadlessChromium.LaunchAsync(playwright, chromium);
         var page = await browser.NewPageAsync(new() { ViewportSize = new() { Width = 1400, Height = 1000 } });
         var errors = new List<string>();
         page.PageError += (_, e) => errors.Add(e);
@@ -101,24 +96,6 @@ public sealed class StatusPageTests(ITestOutputHelper output)
         output.WriteLine($"screenshots in {folder}");
         Assert.True(new FileInfo(shot).Length > 10_000, "the screenshot is not empty");
         Assert.Empty(errors);
-    }
-
-    private static string? Chromium()
-    {
-        var path = Environment.GetEnvironmentVariable("SILOWATCH_TEST_CHROMIUM");
-        if (string.IsNullOrEmpty(path) && File.Exists("/usr/bin/chromium"))
-        {
-            path = "/usr/bin/chromium";
-        }
-
-        if (string.IsNullOrEmpty(path) || !File.Exists(path))
-        {
-            Assert.False(Environment.GetEnvironmentVariable("SILOWATCH_REQUIRE_SERVERS") == "1",
-                "chromium is required (SILOWATCH_REQUIRE_SERVERS=1): set SILOWATCH_TEST_CHROMIUM; tests/run.sh installs Debian's chromium");
-            return null;
-        }
-
-        return path;
     }
 
     private static async Task WaitUntilAsync(Func<Task<bool>> condition, string what)

@@ -63,7 +63,7 @@ public sealed partial class DischargeEventReviewTests(ITestOutputHelper output)
         var d = e.Details!;
         var alarm = Assert.Single(d.Alarms, a => a.Alarm.StartsWith($"{Site}/S1/asymmetry-a1-", StringComparison.Ordinal));
         Assert.InRange(alarm.RaisedMs, r.StartedMs, r.EndedMs.Value);
-        Assert.True(alarm.PeakValue >= alarm.Setpoint);
+        Assert.True(alarm.ValueWhenRaised >= alarm.Setpoint);
         Assert.Equal(alarm.Priority, r.HighestPriority);
         Assert.Equal(d.Alarms.Count, r.AlarmsRaised);
 

@@ -428,9 +428,8 @@ public sealed class DischargeEventRecorder
                 continue;
             }
 
-            var values = group.Select(h => h.Value).Where(double.IsFinite).ToArray();
             var last = group.Last();
-            raised.Add(new EventAlarm(group.Key, first.Priority, first.TimestampMs, values.Length > 0 ? values.Max() : null, Known(first.Limit), last.ToState, first.Message));
+            raised.Add(new EventAlarm(group.Key, first.Priority, first.TimestampMs, Known(first.Value), Known(first.Limit), last.ToState, first.Message));
         }
 
         return [.. raised.OrderBy(x => x.RaisedMs)];
