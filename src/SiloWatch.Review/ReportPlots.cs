@@ -86,8 +86,7 @@ public static class ReportPlots
         var t = Minutes(e, capture);
         var mass = Scale(capture.Column(capture.IndexOf("mass_kg")), 1 / 1000.0);
         var rate = Scale(capture.Column(capture.IndexOf("rate_kg_s")), -3.6);
-        var m = AddLine(plot, t, mass, Colors.Navy, "mass, t");
-        _ = m;
+        AddLine(plot, t, mass, Colors.Navy, "mass, t");
         var r = AddLine(plot, t, rate, Colors.DarkOrange, "outflow rate, t/h");
         r.Axes.YAxis = plot.Axes.Right;
         plot.Axes.Right.Label.Text = "outflow rate, t/h";
@@ -96,36 +95,33 @@ public static class ReportPlots
         return Render(plot, "mass-rate", "Mass and rate over time", "Contents mass (left) and outflow rate (right) from the inventory estimate; dashed lines mark the start and end of the flow.", width, height);
     }
 
-    public static RenderedPlot WallStrain(ReviewedEvent e, EventCapture capture, int width, int height)
+    public static RenderedPlot WallStrain(ReviewedEvent e, EventCapture capture, int width, int height) =>
+        ChannelsOverTime(e, capture, CaptureChannelKind.Strain, new ScottPlot.Palettes.Category20(), c => $"{c.Sensor} ({c.Ring}, {c.AngleDeg:0} deg)",
+            ($"Wall strain per gauge, {e.SiloKey}", "strain, microstrain (tension positive)"),
+            ("wall-strain", "Wall strain per gauge over time", "Compensated strain of every wall gauge as measured (before the wall watch's thermal correction)."),
+            width, height);
+
+    public static RenderedPlot Asymmetry(ReviewedEvent e, EventCapture capture, int width, int height) =>
+        ChannelsOverTime(e, capture, CaptureChannelKind.RingA1Ratio, new ScottPlot.Palettes.Category10(), c => "ring " + c.Ring,
+            ($"Ring asymmetry A1/A0, {e.SiloKey}", "A1/A0"),
+            ("asymmetry", "Asymmetry over time", "First harmonic of each ring's load change since the pre-discharge baseline over the mean load; assessed only while discharging."),
+            width, height);
+
+    // Every channel of one kind over time, one colour each.
+    private static RenderedPlot ChannelsOverTime(ReviewedEvent e, EventCapture capture, CaptureChannelKind kind, IPalette palette, Func<CaptureChannel, string> legend,
+        (string Title, string YLabel) axes, (string Id, string Title, string Caption) figure, int width, int height)
     {
-        var plot = NewPlot($"Wall strain per gauge, {e.SiloKey}", "minutes from the start", "strain, microstrain (tension positive)");
+        var plot = NewPlot(axes.Title, "minutes from the start", axes.YLabel);
         var t = Minutes(e, capture);
-        var palette = new ScottPlot.Palettes.Category20();
         var i = 0;
-        foreach (var (c, index) in capture.Channels.Select((c, k) => (c, k)).Where(x => x.c.Kind == CaptureChannelKind.Strain))
+        foreach (var (c, index) in capture.Channels.Select((c, k) => (c, k)).Where(x => x.c.Kind == kind))
         {
-            AddLine(plot, t, capture.Column(index), palette.GetColor(i++), $"{c.Sensor} ({c.Ring}, {c.AngleDeg:0} deg)");
+            AddLine(plot, t, capture.Column(index), palette.GetColor(i++), legend(c));
         }
 
         MarkStartAndEnd(plot, e);
         plot.ShowLegend(Alignment.UpperRight);
-        return Render(plot, "wall-strain", "Wall strain per gauge over time", "Compensated strain of every wall gauge as measured (before the wall watch's thermal correction).", width, height);
-    }
-
-    public static RenderedPlot Asymmetry(ReviewedEvent e, EventCapture capture, int width, int height)
-    {
-        var plot = NewPlot($"Ring asymmetry A1/A0, {e.SiloKey}", "minutes from the start", "A1/A0");
-        var t = Minutes(e, capture);
-        var palette = new ScottPlot.Palettes.Category10();
-        var i = 0;
-        foreach (var (c, index) in capture.Channels.Select((c, k) => (c, k)).Where(x => x.c.Kind == CaptureChannelKind.RingA1Ratio))
-        {
-            AddLine(plot, t, capture.Column(index), palette.GetColor(i++), "ring " + c.Ring);
-        }
-
-        MarkStartAndEnd(plot, e);
-        plot.ShowLegend(Alignment.UpperRight);
-        return Render(plot, "asymmetry", "Asymmetry over time", "First harmonic of each ring's load change since the pre-discharge baseline over the mean load; assessed only while discharging.", width, height);
+        return Render(plot, figure.Id, figure.Title, figure.Caption, width, height);
     }
 
     /// <summary>The ring's circumferential pattern at the moment of its largest A1/A0, with the first harmonic's direction marked.</summary>
