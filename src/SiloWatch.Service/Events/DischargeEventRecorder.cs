@@ -33,6 +33,7 @@ public sealed class DischargeEventRecorder
     private readonly Gauge[] _gauges;
     private readonly Dictionary<string, RingSlot> _rings;
     private readonly int[] _temperatureChannel;
+    private readonly int[] _temperatureSensor;
     private readonly long _preStartMs;
     private readonly long _postEndMs;
 
@@ -70,6 +71,7 @@ public sealed class DischargeEventRecorder
         }
 
         _temperatureChannel = new int[gauges.Length];
+        _temperatureSensor = new int[gauges.Length];
         for (var k = 0; k < gauges.Length; k++)
         {
             _temperatureChannel[k] = -1;
@@ -77,6 +79,7 @@ public sealed class DischargeEventRecorder
             if (pair.Length > 0 && silo.TryGetSensor(pair, out var t) && t.Options.Kind == SensorKind.Temperature)
             {
                 _temperatureChannel[k] = channels.Count;
+                _temperatureSensor[k] = t.Index;
                 channels.Add(new CaptureChannel("temperature_c:" + gauges[k].SensorId, CaptureChannelKind.Temperature, "degC", gauges[k].SensorId, gauges[k].Ring, gauges[k].AngleDeg));
             }
         }
@@ -153,9 +156,9 @@ public sealed class DischargeEventRecorder
         {
             var g = _gauges[k];
             _frame[g.Channel] = monitor.LastValue(g.SensorIndex);
-            if (_temperatureChannel[k] >= 0 && _silo.TryGetSensor(_silo.Sensors[g.SensorIndex].Options.TemperatureSensor, out var t))
+            if (_temperatureChannel[k] >= 0)
             {
-                _frame[_temperatureChannel[k]] = monitor.LastValue(t.Index);
+                _frame[_temperatureChannel[k]] = monitor.LastValue(_temperatureSensor[k]);
             }
         }
 
