@@ -79,7 +79,7 @@ public sealed partial class Journal : IDisposable
     {
         ArgumentNullException.ThrowIfNull(record);
         return Insert(
-            "INSERT INTO events(" + EventColumns + ") VALUES($site, $silo, $start, $end, $m0, $out, $mean, $peak, $asym, $dir, $details, $a2, $pom, $moe, $prio, $raised)",
+            EventInsert,
             EventParameters(record));
     }
 
@@ -89,7 +89,7 @@ public sealed partial class Journal : IDisposable
     {
         ArgumentNullException.ThrowIfNull(record);
         var changed = NonQuery(
-            "UPDATE events SET site=$site, silo=$silo, started_ms=$start, ended_ms=$end, mass_at_start_kg=$m0, mass_out_kg=$out, mean_rate_kg_s=$mean, peak_rate_kg_s=$peak, max_asymmetry_ratio=$asym, asymmetry_direction_deg=$dir, details_json=$details, max_a2_ratio=$a2, max_peak_over_mean=$pom, max_measured_over_expected=$moe, highest_priority=$prio, alarms_raised=$raised WHERE id=$id",
+            EventUpdate,
             [.. EventParameters(record), ("$id", record.Id)]);
         if (changed == 0)
         {
@@ -132,8 +132,53 @@ public sealed partial class Journal : IDisposable
         }
 
         NonQuery(
-            "INSERT INTO event_captures(event_id, format, frames, channels, data) VALUES($id, $format, $frames, $channels, $data) ON CONFLICT(event_id) DO UPDATE SET format = excluded.format, frames = excluded.frames, channels = excluded.channels, data = excluded.data",
+            CaptureUpsert,
             [("$id", eventId), ("$format", EventCaptureCodec.Format), ("$frames", capture.Frames.Count), ("$channels", capture.Channels.Count), ("$data", EventCaptureCodec.Encode(capture))]);
+    }
+
+    /// <summary>
+    /// Completes an event in one transaction: rewrites its row (or adds it when it has no id or its row is
+    /// gone) and stores its capture, so a reader never sees the finished event without its capture. Returns the id.
+    /// </summary>
+    public long CompleteEvent(DischargeEventRecord record, EventCapture? capture)
+    {
+        ArgumentNullException.ThrowIfNull(record);
+        var blob = capture is null ? null : EventCaptureCodec.Encode(capture);
+        lock (_lock)
+        {
+            ObjectDisposedException.ThrowIf(_disposed, this);
+            using var tx = _connection.BeginTransaction();
+            long id = record.Id;
+            var changed = 0;
+            if (id > 0)
+            {
+                using var update = Command(
+                    EventUpdate,
+                    [.. EventParameters(record), ("$id", id)]);
+                update.Transaction = tx;
+                changed = update.ExecuteNonQuery();
+            }
+
+            if (changed == 0)
+            {
+                using var insert = Command(EventInsert + " RETURNING id",
+                    EventParameters(record));
+                insert.Transaction = tx;
+                id = (long)insert.ExecuteScalar()!;
+            }
+
+            if (capture is not null)
+            {
+                using var save = Command(
+                    CaptureUpsert,
+                    [("$id", id), ("$format", EventCaptureCodec.Format), ("$frames", capture.Frames.Count), ("$channels", capture.Channels.Count), ("$data", blob)]);
+                save.Transaction = tx;
+                save.ExecuteNonQuery();
+            }
+
+            tx.Commit();
+            return id;
+        }
     }
 
     /// <summary>The capture of an event, or null when none was stored.</summary>
@@ -226,6 +271,14 @@ public sealed partial class Journal : IDisposable
         "site, silo, started_ms, ended_ms, mass_at_start_kg, mass_out_kg, mean_rate_kg_s, peak_rate_kg_s, max_asymmetry_ratio, asymmetry_direction_deg, details_json, max_a2_ratio, max_peak_over_mean, max_measured_over_expected, highest_priority, alarms_raised";
 
     private const string EventSelect = "SELECT id, " + EventColumns + " FROM events";
+
+    private const string EventInsert = "INSERT INTO events(" + EventColumns + ") VALUES($site, $silo, $start, $end, $m0, $out, $mean, $peak, $asym, $dir, $details, $a2, $pom, $moe, $prio, $raised)";
+
+    private const string EventUpdate =
+        "UPDATE events SET site=$site, silo=$silo, started_ms=$start, ended_ms=$end, mass_at_start_kg=$m0, mass_out_kg=$out, mean_rate_kg_s=$mean, peak_rate_kg_s=$peak, max_asymmetry_ratio=$asym, asymmetry_direction_deg=$dir, details_json=$details, max_a2_ratio=$a2, max_peak_over_mean=$pom, max_measured_over_expected=$moe, highest_priority=$prio, alarms_raised=$raised WHERE id=$id";
+
+    private const string CaptureUpsert =
+        "INSERT INTO event_captures(event_id, format, frames, channels, data) VALUES($id, $format, $frames, $channels, $data) ON CONFLICT(event_id) DO UPDATE SET format = excluded.format, frames = excluded.frames, channels = excluded.channels, data = excluded.data";
 
     private static DischargeEventRecord ReadEvent(SqliteDataReader r) => new()
     {

@@ -88,6 +88,26 @@ public sealed class JournalEventRecordsTests : IDisposable
     }
 
     [Fact]
+    public void CompletingAnEventRewritesItsRowWithItsCaptureOrAddsItWhenTheRowIsGone()
+    {
+        using var journal = new Journal(DbPath, _time);
+        var open = journal.AppendEvent(new DischargeEventRecord { SiteId = "brackenford", SiloId = "S1", StartedMs = 1_000 });
+        var capture = new EventCapture("brackenford", "S1", 1000, 0, [new CaptureChannel("mass_kg", CaptureChannelKind.Mass, "kg")],
+            [new CaptureFrame(0, [5f]), new CaptureFrame(1000, [4f])]);
+
+        var id = journal.CompleteEvent(new DischargeEventRecord { Id = open, SiteId = "brackenford", SiloId = "S1", StartedMs = 1_000, EndedMs = 9_000, MassOutKg = 1 }, capture);
+        Assert.Equal(open, id);
+        Assert.Equal(9_000, journal.GetEvent(id)!.EndedMs);
+        Assert.Equal(2, journal.LoadCapture(id)!.Frames.Count);
+
+        var added = journal.CompleteEvent(new DischargeEventRecord { Id = 999, SiteId = "brackenford", SiloId = "S2", StartedMs = 2_000, EndedMs = 3_000 }, null);
+        Assert.NotEqual(999, added);
+        Assert.Equal("S2", journal.GetEvent(added)!.SiloId);
+        Assert.Null(journal.LoadCapture(added));
+        Assert.Equal(2, journal.QueryEvents(new EventQuery(FinishedOnly: true)).Count);
+    }
+
+    [Fact]
     public void OpeningAMissingJournalForReviewFailsInsteadOfCreatingOne()
     {
         var missing = _dir.File("nothing-here.db");

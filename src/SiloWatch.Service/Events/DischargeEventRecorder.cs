@@ -354,26 +354,7 @@ public sealed class DischargeEventRecorder
 
         try
         {
-            if (_openEventId is { } id)
-            {
-                try
-                {
-                    _context.Journal.UpdateEvent(record);
-                }
-                catch (KeyNotFoundException)
-                {
-                    _openEventId = _context.Journal.AppendEvent(record with { Id = 0 });
-                }
-            }
-            else
-            {
-                _openEventId = _context.Journal.AppendEvent(record);
-            }
-
-            if (capture is not null && _openEventId is { } saved)
-            {
-                _context.Journal.SaveCapture(saved, capture);
-            }
+            _openEventId = _context.Journal.CompleteEvent(record, capture);
         }
         catch (Exception ex) when (ex is Microsoft.Data.Sqlite.SqliteException or ObjectDisposedException or InvalidOperationException)
         {
