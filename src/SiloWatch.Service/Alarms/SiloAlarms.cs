@@ -72,7 +72,7 @@ public sealed class SiloAlarms
         _wall = wall;
         _time = context.Time;
         _clock = new SiloClock(_time.GetUtcNow().ToUnixTimeMilliseconds());
-        _engine = new AlarmEngine(definitions, _clock, engineOptions);
+        _engine = new AlarmEngine(definitions, _clock, engineOptions, context.Floods);
         _journal = context.Journal;
         _outbound = context.Outbound;
         _sink = context.Sink;
@@ -546,4 +546,8 @@ public sealed record SiloAlarmsContext(
     SiloWatch.Messaging.TopicScheme Topics,
     TimeProvider Time,
     string InstanceId,
-    ILogger Logger);
+    ILogger Logger)
+{
+    /// <summary>The flood count of every site, shared by the silos' engines (null: each engine counts its own).</summary>
+    public AlarmFloodTracker? Floods { get; init; }
+}
