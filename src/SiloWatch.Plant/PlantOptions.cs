@@ -161,6 +161,12 @@ public enum SensorKind
     AxialStrain,
     HoopStrain,
     Temperature,
+
+    /// <summary>
+    /// An outlet signal from the plant's control system: 1 while the outlet gate is open or the discharge feeder runs,
+    /// 0 while it is closed or stopped (unit "state", range 0..1). The discharge state follows it while it is fresh.
+    /// </summary>
+    Outlet,
 }
 
 public enum BridgeType
@@ -178,7 +184,7 @@ public sealed class SensorOptions
 
     public SensorKind Kind { get; set; }
 
-    /// <summary>The unit the gateway sends: "mV/V" for bridges, "degC" for temperatures.</summary>
+    /// <summary>The unit the gateway sends: "mV/V" for bridges, "degC" for temperatures, "state" (0 or 1) for an outlet signal.</summary>
     public string Unit { get; set; } = "";
 
     /// <summary>Expected interval between samples. Default 1 s.</summary>

@@ -189,6 +189,8 @@ public sealed class SiloSimulation
             {
                 SensorKind.LoadCell => LoadCellValue(s, supportLoads, ambient, elapsed),
                 SensorKind.AxialStrain or SensorKind.HoopStrain => GaugeValue(s, ambient, elapsed),
+                // The control system's outlet signal: 1 while the discharge runs, 0 otherwise (no noise on a contact).
+                SensorKind.Outlet => _discharge is not null ? 1.0 : 0.0,
                 _ => TemperatureAt(s.AngleDeg, ambient) + (_scenario.Noise.TemperatureK * s.NoiseFactorAt(elapsed) * _noise.Gaussian()),
             };
             var sensorPeriodMs = Math.Max(periodMs, (long)s.Options.ExpectedPeriod.TotalMilliseconds);

@@ -325,6 +325,9 @@ public sealed class SiloAlarms
             case SensorKind.LoadCell:
                 _wall.OnLoadCell(i, tsMs, value, quality);
                 break;
+            case SensorKind.Outlet:
+                _wall.OnOutlet(i, tsMs, value, quality);
+                break;
             default:
                 _wall.OnValue(i, tsMs, value, quality);
                 break;
