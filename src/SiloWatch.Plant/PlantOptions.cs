@@ -262,8 +262,12 @@ public sealed class AlarmLimitOptions
     /// <summary>Support overload limit, percent of a support's rated capacity.</summary>
     public double SupportOverloadPercent { get; set; } = 90;
 
-    /// <summary>First-harmonic ratio A1/A0 of a wall ring during discharge above which asymmetry is flagged.</summary>
-    public double AsymmetryRatioA1 { get; set; } = 0.35;
+    /// <summary>
+    /// First-harmonic ratio A1/A0 of a wall ring during discharge above which asymmetry is flagged. Default 0.10, a
+    /// placeholder: a flow channel against the wall is a local pattern whose first harmonic is small (about 0.1-0.2 of
+    /// the mean load), so a limit much higher would never see one (see simulators/README.md, eccentric discharge).
+    /// </summary>
+    public double AsymmetryRatioA1 { get; set; } = 0.10;
 
     /// <summary>Measured over expected wall load above which excess is flagged.</summary>
     public double ExcessLoadRatio { get; set; } = 1.25;
