@@ -194,7 +194,7 @@ public static class SiloLoads
     // order of the design allowance: EN 1991-4's discharge patch on a thin circular wall varies as cos θ with
     // C_pe = 0.42·C_op·(1 + 2E²)·(1 − e^(−1.5(h_c/d_c − 1))) [M?], for S1 (wheat, C_op = 0.5 [M], h_c/d_c = 3,
     // concentric E = 0) C_pe ≈ 0.20 over a band s = π·d_c/16 ≈ 1.2 m; its overturning moment at S1's base ring,
-    // M ≈ π·r·p_pe·s·(lever ≈ 7.5 m), is an axial first harmonic M/(π·r²) ≈ 0.13 of the mean n_z [D, estimate]. A
+    // M ≈ π·r·p_pe·s·(lever ≈ 7.5 m), is an axial first harmonic M/(π·r²) ≈ 0.12 of the mean n_z [D, estimate]. A
     // limit of 0.35 (the first placeholder) would flag nothing a flow channel can do; the pure cos pattern the old
     // detection generator injected reached any setpoint by construction. The physics here is kept as it was (it
     // spreads the channel's friction deficit round the ring, which if anything overstates n = 1 against EN's local
