@@ -38,7 +38,7 @@ public static class DetectionDriver
     public static int Run(string[] args)
     {
         var runs = args.Length > 0 ? int.Parse(args[0], CultureInfo.InvariantCulture) : 100;
-        var days = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 21;
+        var days = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 60;
         double[] multiples = args.Length > 2 ? [.. args[2].Split(',').Select(x => double.Parse(x, CultureInfo.InvariantCulture))] : [0.0, 0.8, 1.2, 2.0];
         var bench = Bench.Load();
         var clock = Stopwatch.StartNew();
