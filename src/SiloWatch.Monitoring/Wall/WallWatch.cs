@@ -40,6 +40,7 @@ public sealed class WallWatch
     private readonly double[] _scratch2;
     private readonly HistoryEntry[] _history;
     private readonly Queue<(long Ms, double MassKg)> _massHistory = new();
+    private long _firstMassMs = long.MinValue;
     private readonly int[] _gaugeSensors;
     private readonly int[] _outletSensors;
     private readonly long _outletFreshMs;
@@ -806,6 +807,19 @@ public sealed class WallWatch
     {
         var windowMs = (long)_options.IdleMassWindow.TotalMilliseconds;
         if (!double.IsFinite(massKg))
+        {
+            return double.NaN;
+        }
+
+        // The inventory filter's first estimates converge (the demo's floor-weighed C1 moves by several hundred kg in its
+        // first seconds): the first window after the first estimate is not judged. Before, that start-up was hidden by a
+        // short false fill or discharge; an outlet signal that says "closed" now keeps the silo idle through it.
+        if (_firstMassMs == long.MinValue)
+        {
+            _firstMassMs = nowMs;
+        }
+
+        if (nowMs - _firstMassMs < windowMs)
         {
             return double.NaN;
         }

@@ -191,6 +191,23 @@ public sealed class WallWatchTests
     }
 
     [Fact]
+    public void TheEstimatesFirstMinuteIsNotJudgedAsAnIdleMassChange()
+    {
+        // The inventory filter converges after a start: a step within the first window of estimates is its start-up.
+        var s = new WallScenario();
+        s.Run(10);
+        s.Run(150, i =>
+        {
+            if (i == 0)
+            {
+                s.MassKg -= 3000;
+            }
+        });
+        Assert.Equal(DischargeState.Idle, s.Last!.State);
+        Assert.Empty(s.Raised("idle-mass-change"));
+    }
+
+    [Fact]
     public void AMassStepWhileIdleRaisesTheIdleChangeAlarmAndOverfillItsOwn()
     {
         var s = new WallScenario();
