@@ -86,6 +86,14 @@ public sealed class MonitoringOptions
     [Range(0.0, 100.0)]
     public double GaugeThermalOutputUncertaintyPct { get; set; } = 12;
 
+    /// <summary>
+    /// σ of an untared wall gauge's zero against its configured no-load output (ZeroOffsetMvPerV), microstrain,
+    /// independent from gauge to gauge: bonding, creep and long-term zero shift since installation. Default 5
+    /// [a choice; bonded gauges' zero stability of a few microstrain over months is from memory, M?].
+    /// </summary>
+    [Range(0.0, 1000.0)]
+    public double GaugeZeroUncertaintyMicro { get; set; } = 5;
+
     /// <summary>σ of the configured structure mass while no commanded tare exists, % of it. Default 3.</summary>
     [Range(0.0, 100.0)]
     public double StructureMassUncertaintyPct { get; set; } = 3.0;
@@ -138,7 +146,7 @@ public sealed class MonitoringOptions
     [Range(0.0, 1e6)]
     public double MinRateKgPerS { get; set; } = 0.2;
 
-    /// <summary>Stated mass σ above this fraction of capacity makes an estimate uncertain whatever else holds. Default 0.05.</summary>
+    /// <summary>Stated mass σ above this fraction of capacity makes an estimate uncertain ("wide uncertainty") whatever the arrangement. Default 0.05.</summary>
     [Range(0.0, 10.0)]
     public double MaxConfidentStdFraction { get; set; } = 0.05;
 

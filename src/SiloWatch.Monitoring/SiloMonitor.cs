@@ -315,7 +315,8 @@ public sealed class SiloMonitor
         var capacityKg = capacityM3 * rho;
         if (massStd > _options.MaxConfidentStdFraction * capacityKg)
         {
-            flags |= QualityFlags.PoorlyConditioned;
+            // Not "poorly conditioned": that names the floor-load inversion and belongs to floor weighing alone.
+            flags |= QualityFlags.WideUncertainty;
         }
 
         if (massKg < -Z95 * massStd || massKg > capacityKg * (1 + (2 * _unitWeightRelStd)) + (Z95 * massStd))
@@ -733,8 +734,13 @@ public sealed class SiloMonitor
         var p = _model.Expected;
         var inv = _model.InvertFloorLoad(floorKn, p);
 
-        if (_ring.Length >= 3 && TryRingFit(ts, out var c0, out _, out _, out var ringNoiseMicro2, out var ringThermalMicro2))
+        if (_ring.Length >= 3 && TryRingFit(ts, out var c0, out _, out _, out var ringNoiseMicro2, out var ringThermalMicro2, out var ringUntared))
         {
+            if (ringUntared)
+            {
+                flags |= QualityFlags.WallRingNotTared;
+            }
+
             // Total = floor + U·n_z at the ring + the friction between ring and transition (model) [D, DOMAIN.md §3].
             var g = _silo.Options.Geometry;
             var prior = _filter.Initialised ? _filter.MassKg : inv.HasLevel ? inv.MassKg : floorKn * KgPerKn;
@@ -847,28 +853,41 @@ public sealed class SiloMonitor
             r.HasLevel ? (r.MassKg - m0) / step : capacityKg / step;
     }
 
-    private bool TryRingFit(long ts, out double c0, out double a1, out double b1) => TryRingFit(ts, out c0, out a1, out b1, out _, out _);
+    private bool TryRingFit(long ts, out double c0, out double a1, out double b1) => TryRingFit(ts, out c0, out a1, out b1, out _, out _, out _);
 
-    private bool TryRingFit(long ts, out double c0, out double a1, out double b1, out double meanNoiseVar, out double meanThermalVar)
+    /// <param name="meanSysVar">Variance of the ring mean from thermal residuals and, for untared gauges, their zeros, microstrain².</param>
+    /// <param name="untared">Some gauge had no commanded tare: its installed zero (the configured no-load output) was used.</param>
+    private bool TryRingFit(long ts, out double c0, out double a1, out double b1, out double meanNoiseVar, out double meanSysVar, out bool untared)
     {
-        c0 = a1 = b1 = meanNoiseVar = meanThermalVar = 0;
+        c0 = a1 = b1 = meanNoiseVar = meanSysVar = 0;
+        untared = false;
         var count = 0;
         for (var j = 0; j < _ring.Length; j++)
         {
             var ch = _channels[_ring[j]];
-            if (!ch.UsableAt(ts) || double.IsNaN(ch.TareValue))
+            if (!ch.UsableAt(ts))
             {
                 continue;
             }
 
+            // Without a tare the converted strain is already against the bridge's configured no-load output
+            // (StrainConversion), so the gauge reads the wall's strain since it was empty, known less well.
+            var tared = !double.IsNaN(ch.TareValue);
             _ringAngles[count] = ch.AngleRad;
-            _ringValues[count] = ch.Value - ch.TareValue;
+            _ringValues[count] = tared ? ch.Value - ch.TareValue : ch.Value;
             meanNoiseVar += ch.Noise.Variance;
-            if (double.IsFinite(ch.TareTemperatureC) && double.IsFinite(ch.LastTemperatureC))
+            var since = tared ? ch.TareTemperatureC : ch.Options.ReferenceTemperatureC;
+            if (double.IsFinite(since) && double.IsFinite(ch.LastTemperatureC))
             {
-                // Thermal output known only to a few tens of percent: what is left after compensation since the tare.
-                var th = _options.GaugeThermalOutputUncertaintyPct / 100.0 * ch.Options.ThermalOutputMicroPerK * (ch.LastTemperatureC - ch.TareTemperatureC);
-                meanThermalVar += th * th;
+                // Thermal output known only to a few tens of percent: what is left after compensation since the tare (or the reference temperature).
+                var th = _options.GaugeThermalOutputUncertaintyPct / 100.0 * ch.Options.ThermalOutputMicroPerK * (ch.LastTemperatureC - since);
+                meanSysVar += th * th;
+            }
+
+            if (!tared)
+            {
+                untared = true;
+                meanSysVar += _options.GaugeZeroUncertaintyMicro * _options.GaugeZeroUncertaintyMicro;
             }
 
             count++;
@@ -881,7 +900,7 @@ public sealed class SiloMonitor
 
         // The mean over n gauges has 1/n of one gauge's noise variance.
         meanNoiseVar /= (double)count * count;
-        meanThermalVar /= (double)count * count;
+        meanSysVar /= (double)count * count;
         return RingFit.TryFit(_ringAngles.AsSpan(0, count), _ringValues.AsSpan(0, count), out c0, out a1, out b1);
     }
 
