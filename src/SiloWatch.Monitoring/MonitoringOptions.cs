@@ -54,6 +54,13 @@ public sealed class MonitoringOptions
     [Range(0.001, 1.0)]
     public double DriftShareTolerance { get; set; } = 0.04;
 
+    /// <summary>
+    /// A cell whose share jumps by more than this multiple of <see cref="DriftShareTolerance"/> while the
+    /// others move much less is left out and replaced by its share until it agrees again. Default 3.
+    /// </summary>
+    [Range(1.0, 100.0)]
+    public double DriftExcludeFactor { get; set; } = 3;
+
     /// <summary>Time constant of the learned load-share pattern. Default 6 h.</summary>
     public TimeSpan DriftLearningTime { get; set; } = TimeSpan.FromHours(6);
 
@@ -93,6 +100,14 @@ public sealed class MonitoringOptions
     /// </summary>
     [Range(0.0, 1000.0)]
     public double GaugeZeroUncertaintyMicro { get; set; } = 5;
+
+    /// <summary>
+    /// σ of the apparent axial strain of a wall gauge per K it is warmer than its ring's mean (sun on one
+    /// side bows the restrained shell, DOMAIN.md §3), microstrain/K; not compensated, so it widens the ring's
+    /// error. 0 leaves it out. Default 2 [a choice; its size depends on the shell and its restraint].
+    /// </summary>
+    [Range(0.0, 100.0)]
+    public double GaugeSunBowMicroPerK { get; set; } = 2;
 
     /// <summary>σ of the configured structure mass while no commanded tare exists, % of it. Default 3.</summary>
     [Range(0.0, 100.0)]
