@@ -759,7 +759,9 @@ public sealed class SiloMonitor
         var randVar = randVarKn * _supportScale * _supportScale;
         var sysVar = sysVarKn * _supportScale * _supportScale;
         var residualStd = _options.EccentricityRatioStd;
-        if (TryRingFit(ts, out var c0, out var a1, out var b1, out var ringNoiseVar, out var ringSysVar, out _) && Math.Abs(c0) > 1.0)
+        // An untared ring is not used here: its gauges' zeros are known to a few microstrain, as much as the
+        // first harmonic an off-centre load of a few percent of the radius gives on a light wall share.
+        if (TryRingFit(ts, out var c0, out var a1, out var b1, out var ringNoiseVar, out var ringSysVar, out var untared) && !untared && Math.Abs(c0) > 1.0)
         {
             // Wall ring: n(θ) = n0·[1 + 2(e/r)·cos(θ − θ_e)] for a thin shell under N and M = N·e [D];
             // (a1, b1)/c0 points at the load's offset (compression negative on both). Referred to the support radius.
@@ -984,8 +986,6 @@ public sealed class SiloMonitor
             r.HasLevel ? (r.MassKg - m0) / step : capacityKg / step;
     }
 
-    private bool TryRingFit(long ts, out double c0, out double a1, out double b1) => TryRingFit(ts, out c0, out a1, out b1, out _, out _, out _);
-
     /// <param name="meanSysVar">Variance of the ring mean from thermal residuals and, for untared gauges, their zeros, microstrain².</param>
     /// <param name="untared">Some gauge had no commanded tare: its installed zero (the configured no-load output) was used.</param>
     private bool TryRingFit(long ts, out double c0, out double a1, out double b1, out double meanNoiseVar, out double meanSysVar, out bool untared)
@@ -1167,10 +1167,12 @@ public sealed class SiloMonitor
             : (material.UnitWeightUpperKnM3 - material.UnitWeightLowerKnM3) / Math.Sqrt(12) / material.UnitWeightMeanKnM3;
 
         // K·μ: the characteristic values X_m·a and X_m/a taken as 95 % fractiles of a log-normal [D: EN 1990 reads
-        // characteristic values as 5 %/95 % fractiles, M], so σ_ln = ln(a)/1.645 for each, combined.
+        // characteristic values as 5 %/95 % fractiles, M], so σ_ln = ln(a)/1.645 for each. K and μ are not taken as
+        // independent: the library's factors are from memory for most solids (materials.json says which), and a
+        // solid that packs more densely moves both, so they add, ln(a_K) + ln(a_μ), rather than in quadrature [D: a choice].
         var kMu = options.KMuRelativeStd > 0
             ? options.KMuRelativeStd
-            : Math.Sqrt(Math.Pow(Math.Log(material.KFactor), 2) + Math.Pow(Math.Log(material.WallFrictionFactor), 2)) / 1.645;
+            : (Math.Log(material.KFactor) + Math.Log(material.WallFrictionFactor)) / 1.645;
         return (gamma, kMu);
     }
 }

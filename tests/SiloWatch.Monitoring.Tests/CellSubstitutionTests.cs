@@ -62,6 +62,34 @@ public sealed class CellSubstitutionTests
     }
 
     [Fact]
+    public void ACellBackAfterAGapIsTakenAtItsNewValueNotHeldAtItsOldOne()
+    {
+        // LC2 silent for five minutes while the silo discharges 60 t; its first samples back differ from
+        // its history before the gap, which is news, not a spike.
+        var (monitor, time, silo, model) = DemoPlant.Monitor("S1");
+        var source = new SignalSource(silo, model);
+        var t = source.Run(monitor, time.GetUtcNow().ToUnixTimeMilliseconds(), 20, _ => 0);
+        monitor.Tare("commissioning", t);
+        var start = 0.8 * model.CapacityKg;
+        t = source.Run(monitor, t + 1000, 400, _ => start);
+        source.Silent.Add("LC2");
+        t = source.Run(monitor, t + 1000, 300, i => start - (200.0 * i));
+        source.Silent.Remove("LC2");
+        var worst = 0.0;
+        for (var i = 0; i < 30; i++)
+        {
+            var truth = start - (200.0 * (300 + i));
+            t = source.Run(monitor, t + 1000, 1, _ => truth);
+            var e = monitor.Evaluate(t);
+            worst = Math.Max(worst, Math.Abs(e.MassKg - truth));
+            Assert.InRange(truth, e.MassLow95Kg, e.MassHigh95Kg);
+        }
+
+        Assert.Equal(QualityFlags.None, monitor.SensorFlags(silo.Sensors.Single(s => s.Id == "LC2").Index, t) & QualityFlags.Spike);
+        Assert.True(worst < 0.002 * start, $"worst error {worst:0} kg after the gap");
+    }
+
+    [Fact]
     public void WithoutACleanPeriodTheGeometricShareStandsInWithItsWiderSpread()
     {
         // LC2 silent from the start: no share was ever learned, so equal shares (geometry) stand in, with the
