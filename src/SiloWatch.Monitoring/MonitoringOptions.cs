@@ -94,6 +94,14 @@ public sealed class MonitoringOptions
     public double GaugeThermalOutputUncertaintyPct { get; set; } = 12;
 
     /// <summary>
+    /// Fuse a floor-weighed silo's base ring that was never tared, its gauges' configured no-load output
+    /// (ZeroOffsetMvPerV) taken as zero, with <see cref="GaugeZeroUncertaintyMicro"/>. Default false: an
+    /// untared ring's slow errors (zeros, the sun's warming) move the fused mass by tonnes over hours, which
+    /// reads as a fill or discharge; tare the silo when empty to use the ring.
+    /// </summary>
+    public bool FuseUntaredRing { get; set; }
+
+    /// <summary>
     /// σ of an untared wall gauge's zero against its configured no-load output (ZeroOffsetMvPerV), microstrain,
     /// independent from gauge to gauge: bonding, creep and long-term zero shift since installation. Default 5
     /// [a choice; bonded gauges' zero stability of a few microstrain over months is from memory, M?].
@@ -102,8 +110,8 @@ public sealed class MonitoringOptions
     public double GaugeZeroUncertaintyMicro { get; set; } = 5;
 
     /// <summary>
-    /// σ of the apparent axial strain of a wall gauge per K it is warmer than its ring's mean (sun on one
-    /// side bows the restrained shell, DOMAIN.md §3), microstrain/K; not compensated, so it widens the ring's
+    /// σ of the apparent axial strain of a wall gauge per K it is warmer than its ring's coolest gauge (sun on one
+    /// side bows the restrained shell, DOMAIN.md §3), microstrain/K, common to the ring's gauges; not compensated, so it widens the ring's
     /// error. 0 leaves it out. Default 2 [a choice; its size depends on the shell and its restraint].
     /// </summary>
     [Range(0.0, 100.0)]

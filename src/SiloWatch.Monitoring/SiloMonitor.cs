@@ -873,6 +873,10 @@ public sealed class SiloMonitor
         if (ringUntared)
         {
             flags |= QualityFlags.WallRingNotTared;
+            if (!_options.FuseUntaredRing)
+            {
+                return false;
+            }
         }
 
         var g = _silo.Options.Geometry;
@@ -1027,7 +1031,9 @@ public sealed class SiloMonitor
         if (count >= 3 && _options.GaugeSunBowMicroPerK > 0)
         {
             // Sun on one side bows the shell: apparent axial strain with the local warming (DOMAIN.md §3), not
-            // compensated. Its size per gauge is taken from how far the gauge is warmer than the ring's mean.
+            // compensated. The warming is taken against the ring's coolest gauge (the shaded side), and the
+            // apparent strains of one sun are not independent: they add before the mean, not in quadrature.
+            var minT = double.PositiveInfinity;
             var sumT = 0.0;
             var withT = 0;
             for (var j = 0; j < _ring.Length; j++)
@@ -1035,6 +1041,7 @@ public sealed class SiloMonitor
                 var ch = _channels[_ring[j]];
                 if (ch.UsableAt(ts) && double.IsFinite(ch.LastTemperatureC) && ch.TemperatureChannel >= 0)
                 {
+                    minT = Math.Min(minT, ch.LastTemperatureC);
                     sumT += ch.LastTemperatureC;
                     withT++;
                 }
@@ -1042,16 +1049,9 @@ public sealed class SiloMonitor
 
             if (withT >= 3)
             {
-                var meanT = sumT / withT;
-                for (var j = 0; j < _ring.Length; j++)
-                {
-                    var ch = _channels[_ring[j]];
-                    if (ch.UsableAt(ts) && double.IsFinite(ch.LastTemperatureC) && ch.TemperatureChannel >= 0)
-                    {
-                        var bow = _options.GaugeSunBowMicroPerK * (ch.LastTemperatureC - meanT);
-                        meanSysVar += bow * bow;
-                    }
-                }
+                // meanSysVar is divided by count² below: a common error of σ on every gauge enters as (count·σ)².
+                var bow = _options.GaugeSunBowMicroPerK * ((sumT / withT) - minT) * count;
+                meanSysVar += bow * bow;
             }
         }
 

@@ -221,15 +221,42 @@ public class InventoryAccuracy
     // A calibration fill with delivery records: the contents known to ±0.3 % at each minute.
     private static InventoryCalibration CalibrationFill(SiloRef silo, SiloModel model, InventorySimulation.Truth truth, int seed, MonitoringOptions options)
     {
-        var sim = new InventorySimulation(silo, model, truth, seed + 7);
-        foreach (var s in silo.Sensors.Where(s => s.Options.Kind == SensorKind.AxialStrain))
+        var points = new List<CalibrationPoint>();
+        var last = RecordedFill(silo, model, truth, seed, options, ring: false, (monitor, t, knownKg) =>
+            points.Add(new CalibrationPoint(t, monitor.LastNetLoadKn, knownKg)));
+        var fit = InventoryCalibrator.FitFloorLoad(model, points, floorLoadStdKn: 5, massStdKg: 0.003 * model.CapacityKg);
+        return fit.Confirm("benchmark", last, fit.Note);
+    }
+
+    // The same fill of the floor + ring silo: the ring's gain fitted against known total = floor + gain·ring + friction below the ring.
+    private static InventoryCalibration RingCalibrationFill(SiloRef silo, SiloModel model, InventorySimulation.Truth truth, int seed, MonitoringOptions options)
+    {
+        var points = new List<RingGainPoint>();
+        var last = RecordedFill(silo, model, truth, seed, options, ring: true, (monitor, _, knownKg) =>
         {
-            sim.Silent.Add(s.Id);
+            if (monitor.RingGainPointAt(knownKg) is { } point)
+            {
+                points.Add(point);
+            }
+        });
+        return RingGainCalibrator.Fit(points, floorLoadStdKn: 5, massStdKg: 0.003 * model.CapacityKg).Confirm("benchmark", last);
+    }
+
+    // The first half of the profile, tared when empty, with a delivery record (±0.3 %) handed to take at each minute; returns the last timestamp.
+    private static long RecordedFill(SiloRef silo, SiloModel model, InventorySimulation.Truth truth, int seed, MonitoringOptions options, bool ring,
+        Action<SiloMonitor, long, double> take)
+    {
+        var sim = new InventorySimulation(silo, model, truth, seed + 7);
+        if (!ring)
+        {
+            foreach (var s in silo.Sensors.Where(s => s.Options.Kind == SensorKind.AxialStrain))
+            {
+                sim.Silent.Add(s.Id);
+            }
         }
 
         var monitor = new SiloMonitor(silo, model, options, TimeProvider.System);
         var random = new Random(seed + 11);
-        var points = new List<CalibrationPoint>();
         var profile = Profile(model.CapacityKg);
         for (var i = 0; i < profile.Length / 2; i++)
         {
@@ -245,43 +272,11 @@ public class InventoryAccuracy
 
             if (i > 120 && i % 60 == 0 && profile[i] > 0)
             {
-                points.Add(new CalibrationPoint(sim.LastTimestampMs, monitor.LastNetLoadKn, profile[i] * (1 + (0.003 * InventorySimulation.Gaussian(random)))));
+                take(monitor, sim.LastTimestampMs, profile[i] * (1 + (0.003 * InventorySimulation.Gaussian(random))));
             }
         }
 
-        var fit = InventoryCalibrator.FitFloorLoad(model, points, floorLoadStdKn: 5, massStdKg: 0.003 * model.CapacityKg);
-        return fit.Confirm("benchmark", sim.LastTimestampMs, fit.Note);
-    }
-
-    // A calibration fill of the floor + ring silo with delivery records (contents known to ±0.3 % at each minute):
-    // the ring's gain fitted against known total = floor + gain·ring + friction below the ring.
-    private static InventoryCalibration RingCalibrationFill(SiloRef silo, SiloModel model, InventorySimulation.Truth truth, int seed, MonitoringOptions options)
-    {
-        var sim = new InventorySimulation(silo, model, truth, seed + 7);
-        var monitor = new SiloMonitor(silo, model, options, TimeProvider.System);
-        var random = new Random(seed + 13);
-        var points = new List<RingGainPoint>();
-        var profile = Profile(model.CapacityKg);
-        for (var i = 0; i < profile.Length / 2; i++)
-        {
-            foreach (var sample in sim.Scan(profile[i], i))
-            {
-                monitor.OnSample(sample);
-            }
-
-            if (i == 60)
-            {
-                monitor.Tare("commissioning", sim.LastTimestampMs);
-            }
-
-            if (i > 120 && i % 60 == 0 && profile[i] > 0 && monitor.RingGainPointAt(profile[i] * (1 + (0.003 * InventorySimulation.Gaussian(random)))) is { } point)
-            {
-                points.Add(point);
-            }
-        }
-
-        var fit = RingGainCalibrator.Fit(points, floorLoadStdKn: 5, massStdKg: 0.003 * model.CapacityKg);
-        return fit.Confirm("benchmark", sim.LastTimestampMs);
+        return sim.LastTimestampMs;
     }
 
     // Empty 2 min, fill to 90 % in an hour, rest 10 min, discharge to 20 %, rest 10 min.

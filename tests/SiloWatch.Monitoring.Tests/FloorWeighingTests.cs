@@ -100,8 +100,8 @@ public sealed class FloorWeighingTests
     public void AnUntaredBaseRingIsStillFusedWithItsInstalledZeroAndTheReasonSaysSo()
     {
         // The demo's state: nobody commanded a tare. The gauges read the wall's strain since the silo
-        // was empty (their configured no-load output is the zero), so the ring carries the wall share.
-        var (monitor, time, silo, model) = DemoPlant.Monitor("C1");
+        // was empty (their configured no-load output is the zero), so the ring can carry the wall share.
+        var (monitor, time, silo, model) = DemoPlant.Monitor("C1", new MonitoringOptions { FuseUntaredRing = true });
         var source = new SignalSource(silo, model);
         var mass = 0.6 * model.CapacityKg;
 
@@ -139,7 +139,7 @@ public sealed class FloorWeighingTests
             }
 
             var model = DemoPlant.Model("C1");
-            var monitor = new SiloMonitor(withOffset, model, new MonitoringOptions(), new Microsoft.Extensions.Time.Testing.FakeTimeProvider(DemoPlant.Start));
+            var monitor = new SiloMonitor(withOffset, model, new MonitoringOptions { FuseUntaredRing = true }, new Microsoft.Extensions.Time.Testing.FakeTimeProvider(DemoPlant.Start));
             var source = new SignalSource(withOffset, model);
             foreach (var g in options.Sensors.Where(s => s.Kind == Plant.SensorKind.AxialStrain))
             {
@@ -149,5 +149,27 @@ public sealed class FloorWeighingTests
             var t = source.Run(monitor, DemoPlant.Start.ToUnixTimeMilliseconds(), 60, _ => mass);
             return monitor.Evaluate(t);
         }
+    }
+
+    [Fact]
+    public void ByDefaultAnUntaredRingIsLeftOutAndTheReasonSaysWhy()
+    {
+        var (monitor, time, silo, model) = DemoPlant.Monitor("C1");
+        var source = new SignalSource(silo, model);
+        var t = source.Run(monitor, time.GetUtcNow().ToUnixTimeMilliseconds(), 60, _ => 0.6 * model.CapacityKg);
+        var e = monitor.Evaluate(t);
+
+        Assert.Equal("floor-janssen", e.Method);
+        Assert.Contains("wall ring unavailable: floor load only", e.QualityReason, StringComparison.Ordinal);
+        Assert.Contains("wall ring not tared", e.QualityReason, StringComparison.Ordinal);
+        Assert.True(double.IsNaN(monitor.LastWallLoadKn));
+
+        // A tare when empty (here: the same monitor tared at no load) lets the ring in.
+        var (tared, time2, _, _) = DemoPlant.Monitor("C1");
+        var source2 = new SignalSource(silo, model);
+        var t2 = source2.Run(tared, time2.GetUtcNow().ToUnixTimeMilliseconds(), 20, _ => 0);
+        tared.Tare("commissioning", t2);
+        t2 = source2.Run(tared, t2 + 1000, 60, _ => 0.6 * model.CapacityKg);
+        Assert.Equal("floor+wall-rings", tared.Evaluate(t2).Method);
     }
 }

@@ -75,7 +75,7 @@ public enum QualityFlags
     /// <summary>The stated uncertainty is wide against the capacity, whatever the arrangement.</summary>
     WideUncertainty = 1 << 18,
 
-    /// <summary>The wall ring was never tared: its gauges' configured no-load output is the zero.</summary>
+    /// <summary>The wall ring was never tared: left out, or (MonitoringOptions.FuseUntaredRing) used with its gauges' configured no-load output as zero.</summary>
     WallRingNotTared = 1 << 19,
 }
 
@@ -134,7 +134,7 @@ public static class QualityFlagsExtensions
         QualityFlags.Held => "held from the last measurement",
         QualityFlags.OutsidePhysicalRange => "outside the silo's physical range",
         QualityFlags.WideUncertainty => "wide uncertainty",
-        QualityFlags.WallRingNotTared => "wall ring not tared: gauge zeros as installed",
+        QualityFlags.WallRingNotTared => "wall ring not tared",
         _ => flag.ToString(),
     };
 }
