@@ -46,7 +46,9 @@ public static class IngestLoadDriver
             var ratios = new List<double>();
             for (var round = 1; round <= rounds; round++)
             {
+                Settle();
                 var bare = await MeasureBareAsync(port, payloads, round, new Meter(broker));
+                Settle();
                 var service = await MeasureServiceAsync(port, payloads, perMessage, folder, round, new Meter(broker));
                 ratios.Add(service.Rate / bare.Rate);
                 Console.WriteLine($"round {round}: bare {bare.Rate,8:N0} msg/s (cpu {bare.OwnCpuUs(messages),5:F1} us, mosquitto {bare.BrokerCpuUs(messages),5:F1} us) | " +
@@ -100,6 +102,19 @@ public static class IngestLoadDriver
             broker.Refresh();
             return new Phase(rate, self.TotalProcessorTime - _own, broker.TotalProcessorTime - _broker,
                 GC.GetTotalAllocatedBytes() - _allocated, GC.CollectionCount(0) - _gen0, GC.CollectionCount(2) - _gen2, GC.GetTotalPauseDuration() - _pause);
+        }
+    }
+
+    /// <summary>
+    /// Collects the garbage of the phase before (a disposed host leaves dynamic methods whose
+    /// finalizers otherwise keep the finalizer thread busy during the next phase).
+    /// </summary>
+    private static void Settle()
+    {
+        for (var i = 0; i < 3; i++)
+        {
+            GC.Collect();
+            GC.WaitForPendingFinalizers();
         }
     }
 

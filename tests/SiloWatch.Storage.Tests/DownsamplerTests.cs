@@ -186,14 +186,8 @@ public sealed class DownsamplerTests
         // A new process: the same series key again, a new downsampler, the interval restored, then the rest of the second.
         var inner = new CollectingSink();
         await using var after = new Downsampler(inner, new StorageOptions().Downsampling, _time, new TestLogger<Downsampler>());
-        var json = System.Text.Json.JsonSerializer.Serialize(saved, new System.Text.Json.JsonSerializerOptions
-        {
-            NumberHandling = System.Text.Json.Serialization.JsonNumberHandling.AllowNamedFloatingPointLiterals,
-        });
-        after.RestoreInterval(s, System.Text.Json.JsonSerializer.Deserialize<OpenInterval>(json, new System.Text.Json.JsonSerializerOptions
-        {
-            NumberHandling = System.Text.Json.Serialization.JsonNumberHandling.AllowNamedFloatingPointLiterals,
-        })!);
+        var json = new System.Text.Json.JsonSerializerOptions { NumberHandling = System.Text.Json.Serialization.JsonNumberHandling.AllowNamedFloatingPointLiterals };
+        after.RestoreInterval(s, System.Text.Json.JsonSerializer.Deserialize<OpenInterval>(System.Text.Json.JsonSerializer.Serialize(saved, json), json)!);
         after.Write(s, 7_900, [6, 60, 0]);
         after.Write(s, 8_000, [0, 0, 0]);
 
