@@ -131,9 +131,18 @@ public sealed class ShardedInstancesTests
                 for (var i = 0; i < cells.Length; i++)
                 {
                     var expected = ExpectedMeans(baseMs, i);
+                    // The store makes a write searchable within about a second: poll until every published second is there.
                     var stored = await ExportAsync(http, silo, cells[i], baseMs, TimestampOf(baseMs, Messages) + 1000);
+                    var deadline = DateTime.UtcNow.AddSeconds(30);
+                    while (!expected.Keys.All(stored.ContainsKey) && DateTime.UtcNow < deadline)
+                    {
+                        await Task.Delay(250);
+                        stored = await ExportAsync(http, silo, cells[i], baseMs, TimestampOf(baseMs, Messages) + 1000);
+                    }
+
                     Assert.True(expected.Keys.SequenceEqual(stored.Keys),
-                        $"{silo}/{cells[i]}: stored seconds {string.Join(",", stored.Keys)} differ from the published ones {string.Join(",", expected.Keys)}");
+                        $"{silo}/{cells[i]} (owner: instance {owner[silo]}): seconds missing from the store {string.Join(",", expected.Keys.Except(stored.Keys))}; " +
+                        $"stored but never published {string.Join(",", stored.Keys.Except(expected.Keys))}");
                     foreach (var (ts, mean) in expected)
                     {
                         Assert.True(Math.Abs(stored[ts] - mean) < 1e-9,
