@@ -62,6 +62,7 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
     private bool _subscribedSinceStart;
     private bool _reportedThisAttempt;
     private long _connects;
+    private long _connection;
     private int _started;
     private int _stopping;
     private int _dropQuietly;
@@ -91,12 +92,24 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
         _client = new MqttClientFactory().CreateMqttClient();
         _client.ApplicationMessageReceivedAsync += OnApplicationMessageAsync;
         _client.DisconnectedAsync += OnDisconnectedAsync;
+        _client.ConnectingAsync += _ =>
+        {
+            // Before the new connection exists, so every message it brings sees the new number.
+            Interlocked.Increment(ref _connection);
+            return Task.CompletedTask;
+        };
     }
 
     /// <summary>Raised on the supervisor task after each successful connect (subscriptions and status done); e.g. to replay a spool.</summary>
     public event Func<Task>? Connected;
 
     public bool IsConnected => _client.IsConnected;
+
+    /// <summary>
+    /// Number of the current connection (attempts included): a message acknowledged manually must be
+    /// acknowledged on the connection that brought it, never on a later one.
+    /// </summary>
+    public long ConnectionNumber => Interlocked.Read(ref _connection);
 
     /// <summary>Successful connects after the first one.</summary>
     public long Reconnects => Math.Max(0, Interlocked.Read(ref _connects) - 1);

@@ -2,7 +2,8 @@ using BenchmarkDotNet.Running;
 using SiloWatch.Benchmarks;
 
 // Load drivers and accuracy reports print figures of their own:
-//   ingest-load [messages] [samplesPerMessage]   telemetry through Mosquitto: service vs bare subscriber
+//   ingest-load [messages] [samplesPerMessage] [rounds]   telemetry through Mosquitto: service vs bare subscriber
+//   ingest-path [messages] [samplesPerMessage] [repeats]  the consumer's own cost per message, no network
 //   inventory-accuracy [runs]                    mass error and interval coverage against simulated truth
 //   scenario-accuracy [scenario.json ...]        estimates against the simulator's ground truth per scenario
 //   detection [...]                              wall-load alarm detection rate, delay and false alarms
@@ -10,6 +11,11 @@ using SiloWatch.Benchmarks;
 if (args.Length > 0 && args[0] == "ingest-load")
 {
     return await IngestLoadDriver.RunAsync(args[1..]);
+}
+
+if (args.Length > 0 && args[0] == "ingest-path")
+{
+    return await IngestLoadDriver.RunPathAsync(args[1..]);
 }
 
 if (args.Length > 0 && args[0] == "inventory-accuracy")

@@ -96,6 +96,7 @@ public static class ServiceCollectionExtensions
             sp.GetRequiredService<IOptions<InstanceOptions>>().Value,
             sp.GetRequiredService<SiloWatch.Storage.ITimeSeriesSink>(),
             sp.GetRequiredService<SiloWatch.Storage.SeriesCatalog>(),
+            sp.GetRequiredService<SiloWatch.Storage.Journal>(),
             sp.GetRequiredService<TimeProvider>(),
             sp.GetRequiredService<ILogger<TelemetryIngest>>(),
             sp.GetService<SiloWatch.Service.Alarms.SiloAlarmsFactory>()));

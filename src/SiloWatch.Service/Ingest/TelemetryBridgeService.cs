@@ -37,9 +37,10 @@ public sealed class TelemetryBridgeService(
         options.Host = host;
         options.Port = port;
         ingest.RestoreSnapshots(journal);
-        ingest.Start(_stopping.Token);
         _client = new SupervisedMqttClient(options, instance.Value.Id, ingest.Subscriptions, ingest.OnMessageAsync,
             loggers.CreateLogger<SupervisedMqttClient>(), time);
+        var client = _client;
+        ingest.Start(() => client.ConnectionNumber, _stopping.Token);
         await _client.StartAsync(cancellationToken).ConfigureAwait(false);
         _publisher = Task.Run(() => PublishLoopAsync(_client, _stopping.Token), CancellationToken.None);
         _logger.LogInformation("Instance {Instance} owns {Silos} silo(s) over {Partitions} partition(s); broker {Host}:{Port}",
@@ -133,6 +134,7 @@ public sealed class TelemetryBridgeService(
 
     public async ValueTask DisposeAsync()
     {
+        await ingest.Acks.DisposeAsync().ConfigureAwait(false);
         _stopping.Dispose();
         if (_client is not null)
         {
