@@ -29,6 +29,15 @@ public sealed class MqttPublishException : Exception
         : base(message, innerException)
     {
     }
+
+    public MqttPublishException(string message, MqttClientPublishReasonCode refusedWith)
+        : base(message) => RefusedWith = refusedWith;
+
+    /// <summary>
+    /// The broker's reason code when it received the message and refused it (e.g. NotAuthorized from
+    /// its ACL: sending it again gets the same answer); null when the message never reached the broker.
+    /// </summary>
+    public MqttClientPublishReasonCode? RefusedWith { get; }
 }
 
 /// <summary>
@@ -524,7 +533,7 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
 
         if (result.ReasonCode is not (MqttClientPublishReasonCode.Success or MqttClientPublishReasonCode.NoMatchingSubscribers))
         {
-            throw new MqttPublishException($"the broker refused the message to '{topic}': {result.ReasonCode} {result.ReasonString}");
+            throw new MqttPublishException($"the broker refused the message to '{topic}': {result.ReasonCode} {result.ReasonString}", result.ReasonCode);
         }
     }
 

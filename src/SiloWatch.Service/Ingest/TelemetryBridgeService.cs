@@ -17,6 +17,7 @@ public sealed class TelemetryBridgeService(
     TelemetryIngest ingest,
     OutboundQueue outbound,
     IngestCounters counters,
+    PublishRefusals refusals,
     ITimeSeriesSink sink,
     Journal journal,
     TimeProvider time,
@@ -117,6 +118,12 @@ public sealed class TelemetryBridgeService(
                     await client.PublishAsync(message.Topic, message.Payload, message.Retain, message.Qos, ct).ConfigureAwait(false);
                     pending = null;
                     counters.PublishedOne();
+                }
+                catch (MqttPublishException ex) when (ex.RefusedWith is { } reason)
+                {
+                    // The broker answered and said no (e.g. its ACL): the same message gets the same answer.
+                    refusals.Record(message.Topic, reason);
+                    pending = null;
                 }
                 catch (Exception ex) when (ex is not OperationCanceledException)
                 {
