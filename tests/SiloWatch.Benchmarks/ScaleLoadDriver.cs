@@ -17,7 +17,7 @@ namespace SiloWatch.Benchmarks;
 /// <summary>
 /// Load test of the whole service at plant scale: the demo plant copied to hundreds of silos (invented
 /// ids, the same sensor layouts), a gateway publishing every silo's batch at a sustained rate through a
-/// real Mosquitto on loopback into the service (in-process), and an observer of the published states.
+/// real Mosquitto on loopback into the service (in-process), and an observer of the published states (mosquitto_sub).
 /// Each run is a fresh process; a run with few silos at the same load per silo is the memory baseline.
 /// Usage: dotnet run -c Release --project tests/SiloWatch.Benchmarks -- scale-load
 ///          [--silos 400] [--rate 20000] [--seconds 60] [--warmup 20] [--interval 00:00:01] [--baseline 4]
@@ -144,6 +144,7 @@ public static class ScaleLoadDriver
             $"{silos.Length} silos, {samplesPerRound:F0} samples per round: one batch per silo every {silos.Length / messagesPerS * 1000:F0} ms, {messagesPerS:N0} messages/s"));
 
         using var broker = StartMosquitto(folder, out var port);
+        Console.WriteLine($"mosquitto on 127.0.0.1:{port}");
         var building = Stopwatch.StartNew();
         var app = SiloWatchApp.Build([
             "--Mqtt:Host=127.0.0.1", $"--Mqtt:Port={port}", "--Mqtt:ClientId=silowatch-scale", "--Instance:Id=scale-0",
@@ -156,24 +157,35 @@ public static class ScaleLoadDriver
         var ledger = new Ledger(silos.Length, (int)(messagesPerS * (settings.Seconds + settings.Warmup + 30)));
         var factory = new MqttClientFactory();
         using var gateway = factory.CreateMqttClient();
-        using var observer = factory.CreateMqttClient();
+        long statesReceived = 0;
         var index = silos.Select((s, i) => (s.Key, i)).ToDictionary(x => x.Key, x => x.i, StringComparer.Ordinal);
-        observer.ApplicationMessageReceivedAsync += e =>
-        {
-            var topic = e.ApplicationMessage.Topic;
-            var siloKey = topic[(Prefix.Length + "/state/".Length)..];
-            var arrivedMs = (DateTime.UtcNow - DateTime.UnixEpoch).TotalMilliseconds;
-            if (index.TryGetValue(siloKey, out var silo) && Times(e.ApplicationMessage.Payload) is ({ } evaluatedMs, { } sampleMs))
-            {
-                ledger.StateArrived(silo, sampleMs, Stopwatch.GetTimestamp(), arrivedMs - evaluatedMs);
-            }
-
-            return Task.CompletedTask;
-        };
         await gateway.ConnectAsync(new MqttClientOptionsBuilder().WithTcpServer("127.0.0.1", port).WithClientId("scale-gw").Build());
-        await observer.ConnectAsync(new MqttClientOptionsBuilder().WithTcpServer("127.0.0.1", port).WithClientId("scale-observer").Build());
-        await observer.SubscribeAsync(factory.CreateSubscribeOptionsBuilder()
-            .WithTopicFilter(f => f.WithTopic(Prefix + "/state/#").WithQualityOfServiceLevel(MqttQualityOfServiceLevel.AtMostOnce)).Build());
+
+        // The observer is a process of its own (mosquitto_sub, stamping each arrival): inside this process,
+        // beside the service, an MQTTnet observer fell seconds behind at 200 silos while mosquitto_sub kept up.
+        using var observer = StartObserver(binaryBeside: broker.StartInfo.FileName, port);
+        var observing = new Thread(() =>
+        {
+            while (observer.StandardOutput.ReadLine() is { } line)
+            {
+                // "<unix seconds with ns> <topic> <payload>"
+                var first = line.IndexOf(' ', StringComparison.Ordinal);
+                var second = first < 0 ? -1 : line.IndexOf(' ', first + 1);
+                if (second < 0 || !double.TryParse(line.AsSpan(0, first), NumberStyles.Float, CultureInfo.InvariantCulture, out var arrivedS))
+                {
+                    continue;
+                }
+
+                Interlocked.Increment(ref statesReceived);
+                var siloKey = line[(first + 1 + Prefix.Length + "/state/".Length)..second];
+                var payload = new System.Buffers.ReadOnlySequence<byte>(Encoding.UTF8.GetBytes(line[(second + 1)..]));
+                if (index.TryGetValue(siloKey, out var silo) && Times(payload) is ({ } evaluatedMs, { } sampleMs))
+                {
+                    ledger.StateArrived(silo, sampleMs, arrivedS * 1000, (arrivedS * 1000) - evaluatedMs);
+                }
+            }
+        }) { IsBackground = true, Name = "state observer" };
+        observing.Start();
 
         // The driver's own data is all allocated by now: what the heap gains from here is the service's.
         var built = building.Elapsed;
@@ -201,16 +213,21 @@ public static class ScaleLoadDriver
         var cpu0 = Process.GetCurrentProcess().TotalProcessorTime;
         var clock = Stopwatch.StartNew();
         var maxDepth = 0;
+        var maxOutbound = 0;
+        var outboundQueue = app.Services.GetRequiredService<OutboundQueue>();
+        var states0 = Interlocked.Read(ref statesReceived);
         var backlog = new List<double>(settings.Seconds * 8);
         while (clock.Elapsed < TimeSpan.FromSeconds(settings.Seconds))
         {
             await Task.Delay(125);
             maxDepth = Math.Max(maxDepth, ingest.Workers.Sum(w => w.Depth));
+            maxOutbound = Math.Max(maxOutbound, outboundQueue.Count);
             var accepted = counters.Samples;
             backlog.Add(Math.Max(0, ledger.SamplesPublished - accepted - (published0 - samples0)));
         }
 
         var seconds = clock.Elapsed.TotalSeconds;
+        var statesPerS = (Interlocked.Read(ref statesReceived) - states0) / seconds;
         var sustained = (counters.Samples - samples0) / seconds;
         var offered = (ledger.SamplesPublished - published0) / seconds;
         var cpu = (Process.GetCurrentProcess().TotalProcessorTime - cpu0).TotalSeconds / seconds / Environment.ProcessorCount * 100;
@@ -227,7 +244,8 @@ public static class ScaleLoadDriver
         Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
             $"service: {snapshot.Samples:N0} samples accepted, {snapshot.Rejected} rejected, {snapshot.MissingMessages} messages missing, " +
             $"{snapshot.QueueFullWaits} queue-full waits, {snapshot.OutboundDropped} outbound dropped, {snapshot.Published:N0} published; " +
-            $"deepest partition queues {maxDepth}; {newest.Length:N0} states and {every.Length:N0} messages matched; " +
+            $"deepest partition queues {maxDepth}, outbound queue {maxOutbound}; {statesPerS:N0} states/s received, " +
+            $"{newest.Length:N0} states and {every.Length:N0} messages matched; " +
             $"GC gen0/1/2 {GC.CollectionCount(0)}/{GC.CollectionCount(1)}/{GC.CollectionCount(2)}"));
         var stopping = Stopwatch.StartNew();
         try
@@ -243,7 +261,8 @@ public static class ScaleLoadDriver
 
         await app.DisposeAsync();
         await gateway.DisconnectAsync();
-        await observer.DisconnectAsync();
+        observer.Kill();
+        await observer.WaitForExitAsync();
         broker.Kill();
         await broker.WaitForExitAsync();
 
@@ -286,7 +305,7 @@ public static class ScaleLoadDriver
 
                 payload[at] = (byte)']';
                 payload[at + 1] = (byte)'}';
-                ledger.Published(s, ts, Stopwatch.GetTimestamp(), samples.Count);
+                ledger.Published(s, ts, (DateTime.UtcNow - DateTime.UnixEpoch).TotalMilliseconds, samples.Count);
                 inFlight.Enqueue(gateway.PublishAsync(new MqttApplicationMessageBuilder().WithTopic(silo.Topic).WithPayload(payload)
                     .WithQualityOfServiceLevel(MqttQualityOfServiceLevel.AtLeastOnce).Build(), CancellationToken.None));
                 while (inFlight.Count > 0 && (inFlight.Count > 2000 || inFlight.Peek().IsCompleted))
@@ -441,6 +460,20 @@ public static class ScaleLoadDriver
         throw new InvalidOperationException("mosquitto did not start: " + process.StandardError.ReadToEnd());
     }
 
+    private static Process StartObserver(string binaryBeside, int port)
+    {
+        var client = new[] { Path.Combine(Path.GetDirectoryName(binaryBeside) ?? "", "mosquitto_sub"), "/usr/bin/mosquitto_sub" }.FirstOrDefault(File.Exists)
+            ?? throw new InvalidOperationException("mosquitto_sub is not installed (apt-get install mosquitto-clients)");
+        var observer = Process.Start(new ProcessStartInfo(client,
+            ["-h", "127.0.0.1", "-p", port.ToString(CultureInfo.InvariantCulture), "-i", "scale-observer", "-q", "0", "-t", Prefix + "/state/#", "-F", "%U %t %p"])
+        {
+            RedirectStandardOutput = true,
+            UseShellExecute = false,
+        })!;
+        Thread.Sleep(300); // subscribed before the service publishes its first states
+        return observer;
+    }
+
     private static (long Heap, long WorkingSet) Memory()
     {
         var heap = GC.GetTotalMemory(forceFullCollection: true);
@@ -498,7 +531,7 @@ public static class ScaleLoadDriver
     {
         private const int PerSilo = 256;
         private readonly long[][] _ts;
-        private readonly long[][] _at;
+        private readonly double[][] _at;
         private readonly int[] _head;
         private readonly int[] _tail;
         private readonly double[] _newest;
@@ -512,7 +545,7 @@ public static class ScaleLoadDriver
         public Ledger(int silos, int capacity)
         {
             _ts = [.. Enumerable.Range(0, silos).Select(_ => new long[PerSilo])];
-            _at = [.. Enumerable.Range(0, silos).Select(_ => new long[PerSilo])];
+            _at = [.. Enumerable.Range(0, silos).Select(_ => new double[PerSilo])];
             _head = new int[silos];
             _tail = new int[silos];
             _newest = new double[capacity];
@@ -524,7 +557,7 @@ public static class ScaleLoadDriver
 
         public long SamplesPublished => Interlocked.Read(ref _samplesPublished);
 
-        public void Published(int silo, long tsMs, long at, int samples)
+        public void Published(int silo, long tsMs, double atUnixMs, int samples)
         {
             Interlocked.Add(ref _samplesPublished, samples);
             lock (_gate)
@@ -536,13 +569,13 @@ public static class ScaleLoadDriver
                 }
 
                 _ts[silo][tail % PerSilo] = tsMs;
-                _at[silo][tail % PerSilo] = at;
+                _at[silo][tail % PerSilo] = atUnixMs;
                 _tail[silo] = tail + 1;
             }
         }
 
         /// <summary>A state of <paramref name="silo"/> that includes samples up to <paramref name="sampleMs"/> arrived.</summary>
-        public void StateArrived(int silo, long sampleMs, long now, double sinceEvaluationMs)
+        public void StateArrived(int silo, long sampleMs, double arrivedUnixMs, double sinceEvaluationMs)
         {
             lock (_gate)
             {
@@ -550,7 +583,7 @@ public static class ScaleLoadDriver
                 var last = 0.0;
                 while (_head[silo] < _tail[silo] && _ts[silo][_head[silo] % PerSilo] <= sampleMs)
                 {
-                    last = Stopwatch.GetElapsedTime(_at[silo][_head[silo] % PerSilo], now).TotalMilliseconds;
+                    last = arrivedUnixMs - _at[silo][_head[silo] % PerSilo];
                     if (Recording && _everyCount < _every.Length)
                     {
                         _every[_everyCount++] = last;
