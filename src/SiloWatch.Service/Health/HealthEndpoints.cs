@@ -5,7 +5,8 @@ using SiloWatch.Storage;
 namespace SiloWatch.Service.Health;
 
 /// <summary>
-/// GET /health: broker connection, queue depths and counters (200 when connected, 503 otherwise).
+/// GET /health: broker connection, queue depths, counters and messages the broker refused (200 when
+/// connected, the store reachable and no refusal in the last <see cref="PublishRefusals.HealthWindow"/>; 503 otherwise).
 /// GET /api/silos: the last estimate of every silo this instance owns.
 /// </summary>
 public static class HealthEndpoints
@@ -13,11 +14,12 @@ public static class HealthEndpoints
     public static WebApplication MapSiloWatchHealth(this WebApplication app)
     {
         app.MapGet("/health", (TelemetryBridgeService bridge, TelemetryIngest ingest, OutboundQueue outbound,
-            IngestCounters counters, BrokerEndpoint endpoint, ITimeSeriesSink sink) =>
+            IngestCounters counters, PublishRefusals refusals, BrokerEndpoint endpoint, ITimeSeriesSink sink) =>
         {
             var connected = bridge.Client?.IsConnected ?? false;
             var store = sink.Health;
-            var healthy = connected && store.StoreReachable && !store.SpoolNearlyFull;
+            var refused = refusals.Snapshot();
+            var healthy = connected && store.StoreReachable && !store.SpoolNearlyFull && !refused.Recent;
             var broker = endpoint.Current;
             var report = new HealthReport(
                 healthy ? "healthy" : "degraded",
@@ -26,6 +28,7 @@ public static class HealthEndpoints
                 outbound.Count,
                 counters.Snapshot(),
                 new AckHealth(ingest.Acks.Pending, ingest.Workers.Sum(w => w.Uncheckpointed), ingest.Acks.Acknowledged, ingest.Acks.LeftForRedelivery, ingest.CheckpointsSaved),
+                refused,
                 store);
             return Results.Json(report, statusCode: healthy ? 200 : 503);
         });
@@ -49,7 +52,7 @@ public static class HealthEndpoints
 }
 
 public sealed record HealthReport(string Status, BrokerHealth Broker, IReadOnlyList<QueueHealth> Queues, int OutboundDepth, IngestCountersSnapshot Counters,
-    AckHealth Acknowledgements, StorageHealth Store);
+    AckHealth Acknowledgements, PublishRefusalsSnapshot PublishRefusals, StorageHealth Store);
 
 /// <summary>
 /// Messages received and not yet acknowledged (waiting in queues or for a checkpoint), processed and

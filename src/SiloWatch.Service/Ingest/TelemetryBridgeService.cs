@@ -17,6 +17,7 @@ public sealed class TelemetryBridgeService(
     TelemetryIngest ingest,
     OutboundQueue outbound,
     IngestCounters counters,
+    PublishRefusals refusals,
     ITimeSeriesSink sink,
     Journal journal,
     TimeProvider time,
@@ -42,7 +43,8 @@ public sealed class TelemetryBridgeService(
         var client = _client;
         ingest.Start(() => client.ConnectionNumber, _stopping.Token);
         await _client.StartAsync(cancellationToken).ConfigureAwait(false);
-        _publisher = Task.Run(() => PublishLoopAsync(_client, _stopping.Token), CancellationToken.None);
+        var publisher = new OutboundPublisher(outbound, counters, refusals, time, _logger);
+        _publisher = Task.Run(() => publisher.RunAsync(_client, _stopping.Token), CancellationToken.None);
         _logger.LogInformation("Instance {Instance} owns {Silos} silo(s) over {Partitions} partition(s); broker {Host}:{Port}",
             instance.Value.Id, ingest.Pipelines.Count(), ingest.Workers.Count, host, port);
     }
@@ -82,53 +84,6 @@ public sealed class TelemetryBridgeService(
         if (_client is not null)
         {
             await _client.StopAsync(cancellationToken).ConfigureAwait(false);
-        }
-    }
-
-    private async Task PublishLoopAsync(SupervisedMqttClient client, CancellationToken ct)
-    {
-        var reader = outbound.Reader;
-        OutboundMessage? pending = null;
-        try
-        {
-            while (true)
-            {
-                if (pending is null)
-                {
-                    if (!reader.TryRead(out pending))
-                    {
-                        if (!await reader.WaitToReadAsync(ct).ConfigureAwait(false))
-                        {
-                            return; // completed and drained
-                        }
-
-                        continue;
-                    }
-                }
-
-                if (!client.IsConnected)
-                {
-                    await Task.Delay(TimeSpan.FromMilliseconds(200), time, ct).ConfigureAwait(false);
-                    continue;
-                }
-
-                var message = pending;
-                try
-                {
-                    await client.PublishAsync(message.Topic, message.Payload, message.Retain, message.Qos, ct).ConfigureAwait(false);
-                    pending = null;
-                    counters.PublishedOne();
-                }
-                catch (Exception ex) when (ex is not OperationCanceledException)
-                {
-                    _logger.LogDebug(ex, "Publish to {Topic} failed; retrying", message.Topic);
-                    await Task.Delay(TimeSpan.FromMilliseconds(200), time, ct).ConfigureAwait(false);
-                }
-            }
-        }
-        catch (OperationCanceledException) when (ct.IsCancellationRequested)
-        {
-            // hard stop
         }
     }
 
