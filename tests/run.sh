@@ -49,9 +49,11 @@ CONF
 mosquitto -c "$WORK/mosquitto.conf" >"$WORK/mosquitto.log" 2>&1 &
 PIDS+=($!)
 
-# VictoriaMetrics: takes the InfluxDB v2 write path; read back through /api/v1/export.
+# VictoriaMetrics: takes the InfluxDB v2 write path; read back through /api/v1/export. With
+# -dedup.minScrapeInterval=1ms a point written again (same series and timestamp) is kept once,
+# which makes a replay after a restart idempotent, as in InfluxDB.
 VM_PORT=$(free_port)
-victoria-metrics -httpListenAddr=127.0.0.1:$VM_PORT -storageDataPath="$WORK/vm" -search.latencyOffset=1s \
+victoria-metrics -httpListenAddr=127.0.0.1:$VM_PORT -storageDataPath="$WORK/vm" -search.latencyOffset=1s -dedup.minScrapeInterval=1ms \
   -retentionPeriod=100y >"$WORK/vm.log" 2>&1 &
 PIDS+=($!)
 

@@ -2,6 +2,16 @@ using SiloWatch.Plant;
 
 namespace SiloWatch.Mechanics;
 
+/// <summary>Which form of the hopper stress exponent n the model uses (they differ for wedge hoppers only).</summary>
+public enum HopperExponentRule
+{
+    /// <summary>The slice equilibrium of the hopper: the expected loads balance the weight of the contents.</summary>
+    SliceStatics,
+
+    /// <summary>The standard's form as written, for reproducing its characteristic wedge-hopper pressures.</summary>
+    En1991Part4,
+}
+
 /// <summary>
 /// Walker-type hopper stresses in the form EN 1991-4 §6.3 uses [D; Walker 1966; structure of §6 from memory, M].
 /// x is measured up from the (virtual) apex of the hopper; h is the apex-to-surface height
@@ -27,11 +37,18 @@ public static class HopperLoads
     public static double MobilisedFriction(double k, double tanBeta) => (1.0 - k) / (2.0 * tanBeta);
 
     /// <summary>
-    /// n = S·(F·μ_h·cotβ + F − 1) [D: slice equilibrium of the hopper]. For cones and pyramids (S = 2) this is
-    /// DOMAIN.md's S·(F·μ_h·cotβ + F) − 2; for a wedge (S = 1) statics gives −1, not −2 (tested against an
-    /// integration of the slice equilibrium): check the wedge against your copy of EN 1991-4 §6.3.
+    /// The exponent n of the hopper stress. <see cref="HopperExponentRule.SliceStatics"/> (default):
+    /// n = S·(F·μ_h·cotβ + F − 1) [D: slice equilibrium, d(A·p_v)/dx with A'/A = S/x]. <see cref="HopperExponentRule.En1991Part4"/>:
+    /// n = S·(F·μ_h·cotβ + F) − 2 [M: EN 1991-4:2006 §6.3.2, from memory; DOMAIN.md §1]. The two agree for cones and
+    /// pyramids (S = 2). For a wedge (S = 1) the standard's form is 1 lower than the statics of plane flow (a wedge's
+    /// section narrows in one direction only, so A'/A = 1/x and the area term contributes −1, not −2): it carries more
+    /// of the transition's stress down and gives higher, conservative hopper pressures, but its p_v does not balance
+    /// the weight of the contents.
     /// </summary>
-    public static double PowerN(double s, double f, double mu, double tanBeta) => s * ((f * mu / tanBeta) + f - 1.0);
+    public static double PowerN(double s, double f, double mu, double tanBeta, HopperExponentRule rule = HopperExponentRule.SliceStatics) =>
+        rule == HopperExponentRule.En1991Part4
+            ? (s * ((f * mu / tanBeta) + f)) - 2.0
+            : s * ((f * mu / tanBeta) + f - 1.0);
 
     /// <summary>p_v(x) = (γ·h/(n−1))·[(x/h) − (x/h)^n] + p_vft·(x/h)^n [D; EN 1991-4 §6.3 form, M].</summary>
     public static double VerticalStressKPa(double unitWeightKnM3, double hM, double xM, double n, double topStressKPa)

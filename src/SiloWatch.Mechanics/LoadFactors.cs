@@ -30,5 +30,11 @@ public sealed record LoadFactors
     /// <summary>e_o/d_c above which discharge is "large eccentric" and needs the flow-channel procedure [M]. Default 0.25.</summary>
     public double LargeEccentricityRatio { get; init; } = 0.25;
 
+    /// <summary>
+    /// Form of the hopper stress exponent (differs for wedges only, see <see cref="HopperLoads.PowerN"/>). Default
+    /// <see cref="HopperExponentRule.SliceStatics"/>: the expected loads feed the floor-load inversion, which needs equilibrium.
+    /// </summary>
+    public HopperExponentRule HopperExponent { get; init; } = HopperExponentRule.SliceStatics;
+
     public static LoadFactors Default { get; } = new();
 }

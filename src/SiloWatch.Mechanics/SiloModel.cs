@@ -106,7 +106,7 @@ public sealed class SiloModel
             // Shallow hopper: friction only partly mobilised, μ_heff = (1 − K)/(2·tanβ) [M?].
             HopperFrictionUsed = HopperIsSteep ? muHopper : Math.Min(muHopper, HopperLoads.MobilisedFriction(_k, tanBeta));
             HopperF = HopperLoads.FillingF(tanBeta, HopperFrictionUsed, Factors.HopperFillingB);
-            HopperN = HopperLoads.PowerN(HopperLoads.ShapeFactorS(Geometry.HopperShape), HopperF, HopperFrictionUsed, tanBeta);
+            HopperN = HopperLoads.PowerN(HopperLoads.ShapeFactorS(Geometry.HopperShape), HopperF, HopperFrictionUsed, tanBeta, Factors.HopperExponent);
         }
 
         var w = silo.Weighing;

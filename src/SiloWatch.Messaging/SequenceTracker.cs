@@ -66,6 +66,27 @@ internal sealed class SequenceTracker(int capacity)
         return SequenceStatus.LateFill;
     }
 
+    /// <summary>The position of every tracked publisher, for a snapshot.</summary>
+    public IReadOnlyList<PublisherPosition> Capture() => [.. _entries.Select(e => new PublisherPosition(e.Name, e.Highest, e.Seen))];
+
+    /// <summary>Replaces the tracked publishers with <paramref name="positions"/> (at most the capacity, the first ones kept).</summary>
+    public void Restore(IEnumerable<PublisherPosition> positions)
+    {
+        _entries.Clear();
+        foreach (var position in positions.Take(capacity))
+        {
+            _clock++;
+            _entries.Add(new Entry
+            {
+                Utf8 = Encoding.UTF8.GetBytes(position.Publisher),
+                Name = position.Publisher,
+                Highest = position.Highest,
+                Seen = position.Seen,
+                LastUse = _clock,
+            });
+        }
+    }
+
     private Entry? Find(ReadOnlySpan<byte> publisherUtf8)
     {
         foreach (var entry in _entries)

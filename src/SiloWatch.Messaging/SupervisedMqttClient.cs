@@ -13,6 +13,9 @@ using MQTTnet.Protocol;
 
 namespace SiloWatch.Messaging;
 
+/// <summary>One message for <see cref="SupervisedMqttClient.PublishManyAsync"/>.</summary>
+public readonly record struct MqttOutgoing(string Topic, ReadOnlyMemory<byte> Payload, bool Retain, MqttQualityOfServiceLevel Qos);
+
 /// <summary>Thrown by <see cref="SupervisedMqttClient.PublishAsync"/> when a message could not be handed to the broker.</summary>
 public sealed class MqttPublishException : Exception
 {
@@ -29,6 +32,15 @@ public sealed class MqttPublishException : Exception
         : base(message, innerException)
     {
     }
+
+    public MqttPublishException(string message, MqttClientPublishReasonCode refusedWith)
+        : base(message) => RefusedWith = refusedWith;
+
+    /// <summary>
+    /// The broker's reason code when it received the message and refused it (e.g. NotAuthorized from
+    /// its ACL: sending it again gets the same answer); null when the message never reached the broker.
+    /// </summary>
+    public MqttClientPublishReasonCode? RefusedWith { get; }
 }
 
 /// <summary>
@@ -62,6 +74,8 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
     private bool _subscribedSinceStart;
     private bool _reportedThisAttempt;
     private long _connects;
+    private long _connection;
+    private int _receiveMaximum = DefaultWindow;
     private int _started;
     private int _stopping;
     private int _dropQuietly;
@@ -91,12 +105,24 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
         _client = new MqttClientFactory().CreateMqttClient();
         _client.ApplicationMessageReceivedAsync += OnApplicationMessageAsync;
         _client.DisconnectedAsync += OnDisconnectedAsync;
+        _client.ConnectingAsync += _ =>
+        {
+            // Before the new connection exists, so every message it brings sees the new number.
+            Interlocked.Increment(ref _connection);
+            return Task.CompletedTask;
+        };
     }
 
     /// <summary>Raised on the supervisor task after each successful connect (subscriptions and status done); e.g. to replay a spool.</summary>
     public event Func<Task>? Connected;
 
     public bool IsConnected => _client.IsConnected;
+
+    /// <summary>
+    /// Number of the current connection (attempts included): a message acknowledged manually must be
+    /// acknowledged on the connection that brought it, never on a later one.
+    /// </summary>
+    public long ConnectionNumber => Interlocked.Read(ref _connection);
 
     /// <summary>Successful connects after the first one.</summary>
     public long Reconnects => Math.Max(0, Interlocked.Read(ref _connects) - 1);
@@ -195,6 +221,51 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
         }
     }
 
+    /// <summary>
+    /// Publishes several messages with one hold of the connection gate, up to the broker's Receive
+    /// Maximum (at most <see cref="DefaultWindow"/>) in flight at once, so QoS 1 acknowledgements are
+    /// awaited together rather than one round trip per message. Returns, per message in order, null when
+    /// the broker took it, or the <see cref="MqttPublishException"/> that <see cref="PublishAsync"/> would throw.
+    /// </summary>
+    public async Task<MqttPublishException?[]> PublishManyAsync(IReadOnlyList<MqttOutgoing> messages, CancellationToken ct)
+    {
+        ArgumentNullException.ThrowIfNull(messages);
+        var results = new MqttPublishException?[messages.Count];
+        await _gate.WaitAsync(ct).ConfigureAwait(false);
+        try
+        {
+            var window = Volatile.Read(ref _receiveMaximum);
+            var inFlight = new Task[Math.Min(window, messages.Count)];
+            for (var start = 0; start < messages.Count; start += window)
+            {
+                var count = Math.Min(window, messages.Count - start);
+                for (var i = 0; i < count; i++)
+                {
+                    var m = messages[start + i];
+                    inFlight[i] = PublishCoreAsync(m.Topic, m.Payload, m.Retain, m.Qos, ct);
+                }
+
+                for (var i = 0; i < count; i++)
+                {
+                    try
+                    {
+                        await inFlight[i].ConfigureAwait(false);
+                    }
+                    catch (MqttPublishException ex)
+                    {
+                        results[start + i] = ex;
+                    }
+                }
+            }
+        }
+        finally
+        {
+            _gate.Release();
+        }
+
+        return results;
+    }
+
     public async ValueTask DisposeAsync()
     {
         if (Interlocked.Exchange(ref _disposed, 1) != 0)
@@ -228,6 +299,9 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
         await StopLoopAsync().ConfigureAwait(false);
         _client.Dispose();
     }
+
+    /// <summary>Most QoS 1 messages <see cref="PublishManyAsync"/> keeps in flight.</summary>
+    public const int DefaultWindow = 64;
 
     private uint SessionExpirySeconds => (uint)Math.Clamp(_options.SessionExpiry.TotalSeconds, 1, uint.MaxValue - 1);
 
@@ -397,6 +471,8 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
                 return false;
             }
 
+            // The broker's Receive Maximum (MQTT 5; 0 or absent means 65,535) bounds QoS 1 messages in flight.
+            Volatile.Write(ref _receiveMaximum, result.ReceiveMaximum is { } most and > 0 ? Math.Min((int)most, DefaultWindow) : DefaultWindow);
             var connects = Interlocked.Increment(ref _connects);
             if (_lastProblem is not null)
             {
@@ -524,7 +600,7 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
 
         if (result.ReasonCode is not (MqttClientPublishReasonCode.Success or MqttClientPublishReasonCode.NoMatchingSubscribers))
         {
-            throw new MqttPublishException($"the broker refused the message to '{topic}': {result.ReasonCode} {result.ReasonString}");
+            throw new MqttPublishException($"the broker refused the message to '{topic}': {result.ReasonCode} {result.ReasonString}", result.ReasonCode);
         }
     }
 

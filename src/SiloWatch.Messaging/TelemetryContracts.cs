@@ -128,6 +128,13 @@ public sealed class TelemetryDecoderOptions
 /// </summary>
 public readonly record struct DecodeOutcome(int Accepted, int Rejected, SequenceStatus Sequence, long MissingMessages);
 
+/// <summary>
+/// Where one publisher's sequence stands on one silo: the highest seq seen and a bitmap of the 64
+/// seqs at and below it (bit i = Highest - i seen). Saved with the silo's checkpoint so that a
+/// redelivery after a restart is recognised as a duplicate.
+/// </summary>
+public sealed record PublisherPosition(string Publisher, long Highest, ulong Seen);
+
 /// <summary>Verdict on a message's (pub, seq) against what was seen from that publisher on this silo.</summary>
 public enum SequenceStatus
 {

@@ -49,6 +49,16 @@ public sealed class TelemetryDecoder
     /// <summary>Publishers currently tracked for sequence checks (bounded by MaxPublishersPerSilo).</summary>
     public int TrackedPublishers => _sequences.Count;
 
+    /// <summary>The sequence position of every tracked publisher (for the silo's checkpoint).</summary>
+    public IReadOnlyList<PublisherPosition> CaptureSequences() => _sequences.Capture();
+
+    /// <summary>Restores the positions saved by <see cref="CaptureSequences"/> (before the first message is decoded).</summary>
+    public void RestoreSequences(IEnumerable<PublisherPosition> positions)
+    {
+        ArgumentNullException.ThrowIfNull(positions);
+        _sequences.Restore(positions);
+    }
+
     /// <summary>
     /// Decodes one message, delivering accepted samples and rejections to <paramref name="receiver"/>
     /// synchronously, in payload order. <paramref name="nowUnixMs"/> is the receiver's clock, for

@@ -54,6 +54,13 @@ public sealed class MonitoringOptions
     [Range(0.001, 1.0)]
     public double DriftShareTolerance { get; set; } = 0.04;
 
+    /// <summary>
+    /// A cell whose share jumps by more than this multiple of <see cref="DriftShareTolerance"/> while the
+    /// others move much less is left out and replaced by its share until it agrees again. Default 3.
+    /// </summary>
+    [Range(1.0, 100.0)]
+    public double DriftExcludeFactor { get; set; } = 3;
+
     /// <summary>Time constant of the learned load-share pattern. Default 6 h.</summary>
     public TimeSpan DriftLearningTime { get; set; } = TimeSpan.FromHours(6);
 
@@ -85,6 +92,30 @@ public sealed class MonitoringOptions
     /// <summary>σ of a strain gauge's thermal output against its configured value, % of it (bonding, wall material). Default 12.</summary>
     [Range(0.0, 100.0)]
     public double GaugeThermalOutputUncertaintyPct { get; set; } = 12;
+
+    /// <summary>
+    /// Fuse a floor-weighed silo's base ring that was never tared, its gauges' configured no-load output
+    /// (ZeroOffsetMvPerV) taken as zero, with <see cref="GaugeZeroUncertaintyMicro"/>. Default false: an
+    /// untared ring's slow errors (zeros, the sun's warming) move the fused mass by tonnes over hours, which
+    /// reads as a fill or discharge; tare the silo when empty to use the ring.
+    /// </summary>
+    public bool FuseUntaredRing { get; set; }
+
+    /// <summary>
+    /// σ of an untared wall gauge's zero against its configured no-load output (ZeroOffsetMvPerV), microstrain,
+    /// independent from gauge to gauge: bonding, creep and long-term zero shift since installation. Default 5
+    /// [a choice; bonded gauges' zero stability of a few microstrain over months is from memory, M?].
+    /// </summary>
+    [Range(0.0, 1000.0)]
+    public double GaugeZeroUncertaintyMicro { get; set; } = 5;
+
+    /// <summary>
+    /// σ of the apparent axial strain of a wall gauge per K it is warmer than its ring's coolest gauge (sun on one
+    /// side bows the restrained shell, DOMAIN.md §3), microstrain/K, common to the ring's gauges; not compensated, so it widens the ring's
+    /// error. 0 leaves it out. Default 2 [a choice; its size depends on the shell and its restraint].
+    /// </summary>
+    [Range(0.0, 100.0)]
+    public double GaugeSunBowMicroPerK { get; set; } = 2;
 
     /// <summary>σ of the configured structure mass while no commanded tare exists, % of it. Default 3.</summary>
     [Range(0.0, 100.0)]
@@ -138,7 +169,7 @@ public sealed class MonitoringOptions
     [Range(0.0, 1e6)]
     public double MinRateKgPerS { get; set; } = 0.2;
 
-    /// <summary>Stated mass σ above this fraction of capacity makes an estimate uncertain whatever else holds. Default 0.05.</summary>
+    /// <summary>Stated mass σ above this fraction of capacity makes an estimate uncertain ("wide uncertainty") whatever the arrangement. Default 0.05.</summary>
     [Range(0.0, 10.0)]
     public double MaxConfidentStdFraction { get; set; } = 0.05;
 

@@ -56,6 +56,7 @@ public sealed class SiloMonitor
     private long _scanLastMs = long.MinValue;
     private readonly long _scanToleranceMs;
     private int _failedCellMask;
+    private int _suspectMask;
     private bool _resetPending;
     private long _lastFusionMs = long.MinValue;
     private double _lastSysVarKg2;
@@ -119,7 +120,10 @@ public sealed class SiloMonitor
         _cellStaleAfterMs = _cells.Length == 0 ? long.MaxValue : _cells.Max(c => _channels[c].StaleAfterMs);
         _scanToleranceMs = _cells.Length == 0 ? 1 : Math.Max(1, _cells.Min(c => _channels[c].PeriodMs) / 2);
         _drift = _cells.Length >= 2
-            ? new ShareDriftDetector(_cells.Length, options.DriftLearningTime.TotalSeconds, options.DriftSmoothingTime.TotalSeconds, options.DriftShareTolerance)
+            ? new ShareDriftDetector(_cells.Length, options.DriftLearningTime.TotalSeconds, options.DriftSmoothingTime.TotalSeconds, options.DriftShareTolerance,
+                guardS: options.StuckWindow.TotalSeconds + (2 * options.DriftSmoothingTime.TotalSeconds),
+                // share_i = (1/n)·[1 + 2(e/R)·cos(θ_i − θ_e)] [D, DOMAIN.md §3]: σ 2·σ(e/R)/n for an unknown offset.
+                geometryStd: Math.Max(2 * options.EccentricityRatioStd / _cells.Length, 1e-3))
             : null;
         // Supports: the scale n/m of partial weighing and the leverage of an off-centre load on the weighed set.
         var n = weighing.SupportCount;
@@ -191,6 +195,9 @@ public sealed class SiloMonitor
     /// <summary>Wall load from the base ring at the last scan (U·n_z, compression positive), kN; NaN when the ring was not used.</summary>
     public double LastWallLoadKn { get; private set; } = double.NaN;
 
+    /// <summary>Wall friction between the base ring and the transition (mechanics model) at the last scan, kN; NaN when the ring was not used.</summary>
+    public double LastBelowRingLoadKn { get; private set; } = double.NaN;
+
     /// <summary>Samples ignored because they named a sensor this silo does not have.</summary>
     public long RejectedSamples => _rejectedSamples;
 
@@ -210,6 +217,14 @@ public sealed class SiloMonitor
         if (ch.CellIndex >= 0)
         {
             BeginCellSample(ch, ts);
+        }
+
+        if (ch.LastMs != long.MinValue && ts - ch.LastMs > ch.StaleAfterMs)
+        {
+            // Back after a gap: its recent history is no longer the present, so a first value that differs
+            // from it is news, not a spike (held as one, the value from before the gap would be used).
+            ch.Spike.Reset();
+            ch.Noise.Break();
         }
 
         ch.Raw = raw;
@@ -315,7 +330,8 @@ public sealed class SiloMonitor
         var capacityKg = capacityM3 * rho;
         if (massStd > _options.MaxConfidentStdFraction * capacityKg)
         {
-            flags |= QualityFlags.PoorlyConditioned;
+            // Not "poorly conditioned": that names the floor-load inversion and belongs to floor weighing alone.
+            flags |= QualityFlags.WideUncertainty;
         }
 
         if (massKg < -Z95 * massStd || massKg > capacityKg * (1 + (2 * _unitWeightRelStd)) + (Z95 * massStd))
@@ -443,6 +459,11 @@ public sealed class SiloMonitor
             throw new ArgumentOutOfRangeException(nameof(calibration), $"calibration out of physical range: unit weight {gamma} kN/m3, K·μ {kMu}");
         }
 
+        if (calibration.RingGain is { } ringGain && !(ringGain > 0.5 && ringGain < 2))
+        {
+            throw new ArgumentOutOfRangeException(nameof(calibration), $"ring gain {ringGain} is outside 0.5..2: check the ring's definition (modulus, thickness, gauge factor, bridge) rather than calibrate it away");
+        }
+
         _model = _model.WithExpected(new SolidProperties(gamma, p.K, kMu / p.K));
         var (gStd, kStd) = DefaultPropertyStds(_model.Material, _options);
         _unitWeightRelStd = calibration.UnitWeightKnM3 is null ? gStd : calibration.UnitWeightRelativeStd ?? gStd;
@@ -454,6 +475,15 @@ public sealed class SiloMonitor
             _resetPending = true;
         }
     }
+
+    /// <summary>
+    /// A point for <see cref="RingGainCalibrator"/> from the last scan, with the contents known by other
+    /// means at that moment; null when the base ring was not used in it.
+    /// </summary>
+    public RingGainPoint? RingGainPointAt(double knownMassKg) =>
+        double.IsNaN(LastWallLoadKn) || _lastFusionMs == long.MinValue
+            ? null
+            : new RingGainPoint(_lastFusionMs, LastNetLoadKn, LastWallLoadKn / (_calibration?.RingGain ?? 1.0), LastBelowRingLoadKn, knownMassKg);
 
     /// <summary>Tare, learned load shares and calibration, for a restart.</summary>
     public MonitorSnapshot Snapshot() =>
@@ -565,7 +595,7 @@ public sealed class SiloMonitor
         _scanLastMs = long.MinValue;
         var flags = QualityFlags.None;
         var used = 0;
-        double sumNet = 0, sumShareUsed = 0, randVarKn = 0, sysVarKn = 0, failedShareStd = 0;
+        double sumNet = 0, randVarKn = 0, sysVarKn = 0;
         var failed = 0;
         var tared = true;
         for (var k = 0; k < _cells.Length; k++)
@@ -574,7 +604,44 @@ public sealed class SiloMonitor
             if (!ch.UsableAt(ts))
             {
                 failed |= 1 << k;
-                failedShareStd += _drift?.ShareStd(k) ?? 0;
+                _net[k] = double.NaN;
+            }
+            else
+            {
+                _net[k] = ch.Value - (double.IsNaN(ch.TareValue) ? _structureKn / _cells.Length : ch.TareValue);
+            }
+        }
+
+        if (_drift is not null)
+        {
+            // A cell whose load jumped away from the others' alone is left out at once (see ShareDriftDetector.Suspects).
+            var roughKn = 0.0;
+            foreach (var f in _net)
+            {
+                roughKn += double.IsNaN(f) ? 0 : f;
+            }
+
+            _suspectMask = _drift.Suspects(_net, _suspectMask & ~failed, roughKn * KgPerKn > _options.DriftMinLoadFraction * _model.CapacityKg, _options.DriftExcludeFactor);
+            failed |= _suspectMask;
+        }
+
+        if (failed != 0 && _drift is not null)
+        {
+            // Shares from a clean period before the failure could have begun (the detector keeps them dated).
+            var mask = _drift.BeginSubstitution(failed, ts);
+            for (var k = 0; k < _cells.Length; k++)
+            {
+                _channels[_cells[k]].Drifting = (((mask & ~failed) | _suspectMask) & (1 << k)) != 0;
+            }
+        }
+
+        double sumShareUsed = 0, failedShareStd = 0, driftShare2 = 0;
+        for (var k = 0; k < _cells.Length; k++)
+        {
+            var ch = _channels[_cells[k]];
+            if ((failed & (1 << k)) != 0)
+            {
+                failedShareStd += _drift?.SubstituteShareStd(k, ts) ?? 0;
                 _net[k] = double.NaN;
                 continue;
             }
@@ -589,21 +656,20 @@ public sealed class SiloMonitor
             var net = ch.Value - tareKn;
             _net[k] = net;
             sumNet += net;
-            // The shares of the last complete scans predict a failed cell best (an off-centre fill moves them from 1/n).
-            sumShareUsed += _drift?.RecentShare(k) ?? 1.0;
+            sumShareUsed += failed != 0 && _drift is not null ? _drift.SubstituteShare(k) : 1.0;
             randVarKn += ch.Noise.Variance;
             sysVarKn += CellSystematicVarKn2(ch.Options, net, ts);
             if (ch.Drifting && _drift is not null)
             {
-                // Drifting but still used: widen by how far its share has moved.
-                var d = _drift.Departure(k) * Math.Max(sumNet, 0);
-                sysVarKn += d * d;
+                // Drifting but still used: widen by how far its share has moved (of the whole net load, below).
+                driftShare2 += _drift.Departure(k) * _drift.Departure(k);
             }
 
             flags |= ch.FlagsAt(ts) & CarriedSensorFlags;
             used++;
         }
 
+        sysVarKn += driftShare2 * Math.Max(sumNet, 0) * Math.Max(sumNet, 0);
         _failedCellMask = failed;
         if (used == 0 || used * 2 < _cells.Length || (failed != 0 && _drift is null))
         {
@@ -632,11 +698,12 @@ public sealed class SiloMonitor
         else
         {
             totalKn = sumNet;
-            UpdateDrift(ts, totalKn);
+            UpdateDrift(ts, totalKn, clean: (flags & QualityFlags.Spike) == 0);
         }
 
         LastNetLoadKn = totalKn;
         LastWallLoadKn = double.NaN;
+        LastBelowRingLoadKn = double.NaN;
         double massKg, randVarKg, sysVarKg;
         var method = MethodName(false);
         switch (_arrangement)
@@ -692,14 +759,24 @@ public sealed class SiloMonitor
         var randVar = randVarKn * _supportScale * _supportScale;
         var sysVar = sysVarKn * _supportScale * _supportScale;
         var residualStd = _options.EccentricityRatioStd;
-        if (TryRingFit(ts, out var c0, out var a1, out var b1) && Math.Abs(c0) > 5.0)
+        // An untared ring is not used here: its gauges' zeros are known to a few microstrain, as much as the
+        // first harmonic an off-centre load of a few percent of the radius gives on a light wall share.
+        if (TryRingFit(ts, out var c0, out var a1, out var b1, out var ringNoiseVar, out var ringSysVar, out var untared) && !untared && Math.Abs(c0) > 1.0)
         {
             // Wall ring: n(θ) = n0·[1 + 2(e/r)·cos(θ − θ_e)] for a thin shell under N and M = N·e [D];
             // (a1, b1)/c0 points at the load's offset (compression negative on both). Referred to the support radius.
             var r = 0.5 * _silo.Options.Geometry.DiameterM;
             var rs = _silo.Options.Weighing.SupportRadiusM > 0 ? _silo.Options.Weighing.SupportRadiusM : r;
-            var ex = a1 / c0 * r / (2 * rs);
-            var ey = b1 / c0 * r / (2 * rs);
+            // σ of a1 (and b1) from the gauges' own errors: a least-squares first harmonic over N gauges has 2σ²/N,
+            // i.e. twice the mean's variance [D]. Referred to e/R it is large while c0 is small (a nearly empty
+            // silo, or an untared ring whose zeros and sun bowing are a good part of what it reads).
+            var sigmaMeas = Math.Sqrt(2 * (ringNoiseVar + ringSysVar)) / Math.Abs(c0) * r / (2 * rs);
+            var sigmaPrior = _options.EccentricityRatioStd;
+            // The ring's offset combined with the prior (zero mean, σ_prior) by inverse variances [D: Gaussian conjugate update].
+            var weight = sigmaPrior * sigmaPrior / ((sigmaPrior * sigmaPrior) + (sigmaMeas * sigmaMeas));
+            var posteriorVar = weight * sigmaMeas * sigmaMeas;
+            var ex = weight * a1 / c0 * r / (2 * rs);
+            var ey = weight * b1 / c0 * r / (2 * rs);
             var m = _supportScale > 0 ? _silo.Options.Weighing.SupportCount / _supportScale : 1;
             var correction = 1 + (2.0 / m * ((ex * _sumCosWeighed) + (ey * _sumSinWeighed)));
             if (correction > 0.2)
@@ -707,8 +784,12 @@ public sealed class SiloMonitor
                 totalKn /= correction;
                 randVar /= correction * correction;
                 sysVar /= correction * correction;
-                // The wall share's offset stands for the whole load's only roughly: keep half the prior spread.
-                residualStd = 0.5 * _options.EccentricityRatioStd;
+                // The wall share's offset stands for the whole load's only roughly: half the prior spread stays.
+                residualStd = Math.Min(sigmaPrior, Math.Sqrt(posteriorVar + (0.25 * sigmaPrior * sigmaPrior)));
+                if (weight < 0.5)
+                {
+                    flags |= QualityFlags.PartialWeighing;
+                }
             }
             else
             {
@@ -729,41 +810,104 @@ public sealed class SiloMonitor
         out double massKg, out double randVarKg, out double sysVarKg, out bool withRing)
     {
         massKg = randVarKg = sysVarKg = double.NaN;
-        withRing = false;
         var p = _model.Expected;
         var inv = _model.InvertFloorLoad(floorKn, p);
-
-        if (_ring.Length >= 3 && TryRingFit(ts, out var c0, out _, out _, out var ringNoiseMicro2, out var ringThermalMicro2))
-        {
-            // Total = floor + U·n_z at the ring + the friction between ring and transition (model) [D, DOMAIN.md §3].
-            var g = _silo.Options.Geometry;
-            var prior = _filter.Initialised ? _filter.MassKg : inv.HasLevel ? inv.MassKg : floorKn * KgPerKn;
-            var state = _model.StateAtMass(Math.Max(0, prior));
-            var atRing = _model.WallAt(state, _ringHeightM);
-            var atBase = _model.WallAt(state, 0);
-            var hoopStressKPa = double.IsFinite(atRing.HoopForceKnPerM) ? atRing.HoopForceKnPerM / g.WallThicknessM : 0;
-            var axialStressKPa = MembraneForces.AxialStressFromAxialStrainKPa(c0, hoopStressKPa, g.WallYoungsModulusGPa, g.WallPoissonRatio);
-            var nzKnPerM = -MembraneForces.ForcePerMetreKnPerM(axialStressKPa, g.WallThicknessM);
-            var wallKn = _model.PerimeterM * nzKnPerM;
-            var belowKn = _model.PerimeterM * Math.Max(0, atBase.AxialForceKnPerM - atRing.AxialForceKnPerM);
-            var totalKn = floorKn + wallKn + belowKn;
-            LastWallLoadKn = wallKn;
-            var perMicro = _model.PerimeterM * g.WallYoungsModulusGPa * g.WallThicknessM;
-            var ringRand = perMicro * perMicro * ringNoiseMicro2;
-            var ringSys = Math.Pow(wallKn * _options.WallRingRelativeStd, 2) + Math.Pow(0.5 * belowKn, 2) + (perMicro * perMicro * ringThermalMicro2);
-            massKg = totalKn * KgPerKn;
-            randVarKg = (randVarKn + ringRand) * KgPerKn * KgPerKn;
-            sysVarKg = (sysVarKn + ringSys) * KgPerKn * KgPerKn;
-            withRing = true;
-            _lastConditioning = 1.0;
-            return true;
-        }
-
-        if (_ring.Length >= 3)
+        withRing = _ring.Length >= 3 && RingTotal(floorKn, randVarKn, sysVarKn, inv, ts, ref flags, out massKg, out randVarKg, out sysVarKg);
+        if (!withRing && _ring.Length >= 3)
         {
             flags |= QualityFlags.WallRingUnavailable;
         }
 
+        var floorFlags = QualityFlags.None;
+        var floorOk = InvertFloor(floorKn, randVarKn, sysVarKn, inv, ref floorFlags, out var mF, out var randF, out var sysF, out var upF, out var downF, out var dmdF);
+        if (!withRing)
+        {
+            flags |= floorFlags;
+            (massKg, randVarKg, sysVarKg) = (mF, randF, sysF);
+            return floorOk;
+        }
+
+        // Both: the floor-load inversion and floor + wall ring, combined by their variances. They share the
+        // floor load's errors (covariance dm_F/dF · 1 · var F) [D: best linear unbiased combination of two
+        // correlated estimates]; the ring takes over where the inversion is poorly conditioned or fails.
+        var ringSys95 = Z95 * Math.Sqrt(sysVarKg);
+        if (!floorOk || !double.IsFinite(mF))
+        {
+            _lastSysUp95Kg = _lastSysDown95Kg = ringSys95;
+            _asymmetric = true;
+            _lastConditioning = 1.0;
+            return true;
+        }
+
+        flags |= floorFlags & QualityFlags.OutsidePhysicalRange;
+        var covRand = dmdF * KgPerKn * randVarKn;
+        var covSys = dmdF * KgPerKn * sysVarKn;
+        var varF = randF + sysF;
+        var varR = randVarKg + sysVarKg;
+        var denominator = varF + varR - (2 * (covRand + covSys));
+        var w = denominator > 0 ? Math.Clamp((varR - covRand - covSys) / denominator, 0, 1) : 0;
+        var v = 1 - w;
+        massKg = (w * mF) + (v * massKg);
+        randVarKg = Math.Max(0, (w * w * randF) + (v * v * randVarKg) + (2 * w * v * covRand));
+        var zc = Z95 * Z95 * covSys;
+        var up2 = (w * w * upF * upF) + (v * v * ringSys95 * ringSys95) + (2 * w * v * zc);
+        var down2 = (w * w * downF * downF) + (v * v * ringSys95 * ringSys95) + (2 * w * v * zc);
+        sysVarKg = Math.Max(0, (w * w * sysF) + (v * v * sysVarKg) + (2 * w * v * covSys));
+        _lastSysUp95Kg = Math.Sqrt(Math.Max(up2, Z95 * Z95 * sysVarKg * 0.25));
+        _lastSysDown95Kg = Math.Sqrt(Math.Max(down2, Z95 * Z95 * sysVarKg * 0.25));
+        _asymmetric = true;
+        _lastConditioning = 1.0;
+        return true;
+    }
+
+    // Total = floor + U·n_z at the ring + the friction between ring and transition (model) [D, DOMAIN.md §3].
+    private bool RingTotal(double floorKn, double randVarKn, double sysVarKn, in InversionResult inv, long ts, ref QualityFlags flags,
+        out double massKg, out double randVarKg, out double sysVarKg)
+    {
+        massKg = randVarKg = sysVarKg = double.NaN;
+        if (!TryRingFit(ts, out var c0, out _, out _, out var ringNoiseMicro2, out var ringSysMicro2, out var ringUntared))
+        {
+            return false;
+        }
+
+        if (ringUntared)
+        {
+            flags |= QualityFlags.WallRingNotTared;
+            if (!_options.FuseUntaredRing)
+            {
+                return false;
+            }
+        }
+
+        var g = _silo.Options.Geometry;
+        var prior = _filter.Initialised ? _filter.MassKg : inv.HasLevel ? inv.MassKg : floorKn * KgPerKn;
+        var state = _model.StateAtMass(Math.Max(0, prior));
+        var atRing = _model.WallAt(state, _ringHeightM);
+        var atBase = _model.WallAt(state, 0);
+        var hoopStressKPa = double.IsFinite(atRing.HoopForceKnPerM) ? atRing.HoopForceKnPerM / g.WallThicknessM : 0;
+        var axialStressKPa = MembraneForces.AxialStressFromAxialStrainKPa(c0, hoopStressKPa, g.WallYoungsModulusGPa, g.WallPoissonRatio);
+        var nzKnPerM = -MembraneForces.ForcePerMetreKnPerM(axialStressKPa, g.WallThicknessM);
+        var gain = _calibration?.RingGain ?? 1.0;
+        var gainStd = _calibration?.RingGain is not null ? _calibration.RingGainRelativeStd ?? _options.WallRingRelativeStd : _options.WallRingRelativeStd;
+        var wallKn = gain * _model.PerimeterM * nzKnPerM;
+        var belowKn = _model.PerimeterM * Math.Max(0, atBase.AxialForceKnPerM - atRing.AxialForceKnPerM);
+        LastWallLoadKn = wallKn;
+        LastBelowRingLoadKn = belowKn;
+        var perMicro = gain * _model.PerimeterM * g.WallYoungsModulusGPa * g.WallThicknessM;
+        var ringRand = perMicro * perMicro * ringNoiseMicro2;
+        var ringSys = Math.Pow(wallKn * gainStd, 2) + Math.Pow(0.5 * belowKn, 2) + (perMicro * perMicro * ringSysMicro2);
+        massKg = (floorKn + wallKn + belowKn) * KgPerKn;
+        randVarKg = (randVarKn + ringRand) * KgPerKn * KgPerKn;
+        sysVarKg = (sysVarKn + ringSys) * KgPerKn * KgPerKn;
+        return true;
+    }
+
+    private bool InvertFloor(double floorKn, double randVarKn, double sysVarKn, in InversionResult inv, ref QualityFlags flags,
+        out double massKg, out double randVarKg, out double sysVarKg, out double up95Kg, out double down95Kg, out double dmdF)
+    {
+        massKg = randVarKg = sysVarKg = up95Kg = down95Kg = double.NaN;
+        dmdF = KgPerKn;
+        var p = _model.Expected;
         switch (inv.Status)
         {
             case InversionStatus.AboveSaturation:
@@ -774,6 +918,7 @@ public sealed class SiloMonitor
                 massKg = floorKn * KgPerKn;
                 randVarKg = randVarKn * KgPerKn * KgPerKn;
                 sysVarKg = sysVarKn * KgPerKn * KgPerKn;
+                up95Kg = down95Kg = Z95 * Math.Sqrt(sysVarKg);
                 _lastConditioning = 1.0;
                 return true;
             case InversionStatus.AboveFullLevel:
@@ -786,21 +931,23 @@ public sealed class SiloMonitor
         var m0 = inv.MassKg;
         var dF = Math.Max(1e-3 * floorKn, 0.05);
         var capacityKg = _model.CapacityKg;
-        var dmdF = Slope(_model.InvertFloorLoad(floorKn + dF, p), m0, dF, capacityKg);
+        dmdF = Slope(_model.InvertFloorLoad(floorKn + dF, p), m0, dF, capacityKg);
         const double h = 0.01;
         var dmdLnKMu = Slope(_model.InvertFloorLoad(floorKn, p.WithKMu(p.KMu * (1 + h))), m0, h, capacityKg);
-        // After a calibration that held γ, the fit fixed γ/(K·μ) (what the floor load sees): γ then moves with K·μ.
         var pGamma = p with { UnitWeightKnM3 = p.UnitWeightKnM3 * (1 + h) };
-        if (_gammaTiedToKMu)
-        {
-            pGamma = pGamma.WithKMu(p.KMu * (1 + h));
-        }
-
         var dmdLnGamma = Slope(_model.InvertFloorLoad(floorKn, pGamma), m0, h, capacityKg);
+        // After a calibration that held γ, the fit pinned the floor load against known masses over the fill: a
+        // different γ would have been met by a different K·μ along the same curve, so the mass at a floor load
+        // is left with the fit's K·μ uncertainty (which carries the fit's residuals), and γ moves only the
+        // level and volume [D].
+        var gammaStd = _gammaTiedToKMu ? 0 : _unitWeightRelStd;
+        // The calibrated curve misses the plant's by its fit residuals (a shape Janssen cannot follow, not noise): a floor-load error that does not average.
+        var residualKn = _calibration?.FloorLoadResidualKn ?? 0;
+        sysVarKn += residualKn * residualKn;
 
         massKg = m0;
         randVarKg = dmdF * dmdF * randVarKn;
-        sysVarKg = (dmdF * dmdF * sysVarKn) + Math.Pow(dmdLnKMu * _kMuRelStd, 2) + Math.Pow(dmdLnGamma * _unitWeightRelStd, 2);
+        sysVarKg = (dmdF * dmdF * sysVarKn) + Math.Pow(dmdLnKMu * _kMuRelStd, 2) + Math.Pow(dmdLnGamma * gammaStd, 2);
 
         // The inversion is far from linear near saturation: the 95 % bounds come from inverting at the
         // 95 % values of K·μ and γ (each side combined in quadrature); past saturation the upper bound is open.
@@ -808,13 +955,9 @@ public sealed class SiloMonitor
         foreach (var sign in (ReadOnlySpan<double>)[-1.0, 1.0])
         {
             var kFactor = Math.Exp(sign * Z95 * _kMuRelStd);
-            var gFactor = 1 + (sign * Z95 * _unitWeightRelStd);
+            var gFactor = 1 + (sign * Z95 * gammaStd);
             var pk = p.WithKMu(p.KMu * kFactor);
             var pg = p with { UnitWeightKnM3 = p.UnitWeightKnM3 * gFactor };
-            if (_gammaTiedToKMu)
-            {
-                pg = pg.WithKMu(p.KMu * gFactor);
-            }
 
             foreach (var q in (ReadOnlySpan<SolidProperties>)[pk, pg])
             {
@@ -831,8 +974,8 @@ public sealed class SiloMonitor
             }
         }
 
-        _lastSysUp95Kg = Math.Sqrt(up2);
-        _lastSysDown95Kg = Math.Sqrt(down2);
+        up95Kg = _lastSysUp95Kg = Math.Sqrt(up2);
+        down95Kg = _lastSysDown95Kg = Math.Sqrt(down2);
         _asymmetric = true;
         _lastConditioning = m0 > 0 ? Math.Abs(dmdF) * floorKn / m0 : 1.0;
         if (_lastConditioning > _options.ConditioningLimit)
@@ -847,31 +990,69 @@ public sealed class SiloMonitor
             r.HasLevel ? (r.MassKg - m0) / step : capacityKg / step;
     }
 
-    private bool TryRingFit(long ts, out double c0, out double a1, out double b1) => TryRingFit(ts, out c0, out a1, out b1, out _, out _);
-
-    private bool TryRingFit(long ts, out double c0, out double a1, out double b1, out double meanNoiseVar, out double meanThermalVar)
+    /// <param name="meanSysVar">Variance of the ring mean from thermal residuals and, for untared gauges, their zeros, microstrain².</param>
+    /// <param name="untared">Some gauge had no commanded tare: its installed zero (the configured no-load output) was used.</param>
+    private bool TryRingFit(long ts, out double c0, out double a1, out double b1, out double meanNoiseVar, out double meanSysVar, out bool untared)
     {
-        c0 = a1 = b1 = meanNoiseVar = meanThermalVar = 0;
+        c0 = a1 = b1 = meanNoiseVar = meanSysVar = 0;
+        untared = false;
         var count = 0;
         for (var j = 0; j < _ring.Length; j++)
         {
             var ch = _channels[_ring[j]];
-            if (!ch.UsableAt(ts) || double.IsNaN(ch.TareValue))
+            if (!ch.UsableAt(ts))
             {
                 continue;
             }
 
+            // Without a tare the converted strain is already against the bridge's configured no-load output
+            // (StrainConversion), so the gauge reads the wall's strain since it was empty, known less well.
+            var tared = !double.IsNaN(ch.TareValue);
             _ringAngles[count] = ch.AngleRad;
-            _ringValues[count] = ch.Value - ch.TareValue;
+            _ringValues[count] = tared ? ch.Value - ch.TareValue : ch.Value;
             meanNoiseVar += ch.Noise.Variance;
-            if (double.IsFinite(ch.TareTemperatureC) && double.IsFinite(ch.LastTemperatureC))
+            var since = tared ? ch.TareTemperatureC : ch.Options.ReferenceTemperatureC;
+            if (double.IsFinite(since) && double.IsFinite(ch.LastTemperatureC))
             {
-                // Thermal output known only to a few tens of percent: what is left after compensation since the tare.
-                var th = _options.GaugeThermalOutputUncertaintyPct / 100.0 * ch.Options.ThermalOutputMicroPerK * (ch.LastTemperatureC - ch.TareTemperatureC);
-                meanThermalVar += th * th;
+                // Thermal output known only to a few tens of percent: what is left after compensation since the tare (or the reference temperature).
+                var th = _options.GaugeThermalOutputUncertaintyPct / 100.0 * ch.Options.ThermalOutputMicroPerK * (ch.LastTemperatureC - since);
+                meanSysVar += th * th;
+            }
+
+            if (!tared)
+            {
+                untared = true;
+                meanSysVar += _options.GaugeZeroUncertaintyMicro * _options.GaugeZeroUncertaintyMicro;
             }
 
             count++;
+        }
+
+        if (count >= 3 && _options.GaugeSunBowMicroPerK > 0)
+        {
+            // Sun on one side bows the shell: apparent axial strain with the local warming (DOMAIN.md §3), not
+            // compensated. The warming is taken against the ring's coolest gauge (the shaded side), and the
+            // apparent strains of one sun are not independent: they add before the mean, not in quadrature.
+            var minT = double.PositiveInfinity;
+            var sumT = 0.0;
+            var withT = 0;
+            for (var j = 0; j < _ring.Length; j++)
+            {
+                var ch = _channels[_ring[j]];
+                if (ch.UsableAt(ts) && double.IsFinite(ch.LastTemperatureC) && ch.TemperatureChannel >= 0)
+                {
+                    minT = Math.Min(minT, ch.LastTemperatureC);
+                    sumT += ch.LastTemperatureC;
+                    withT++;
+                }
+            }
+
+            if (withT >= 3)
+            {
+                // meanSysVar is divided by count² below: a common error of σ on every gauge enters as (count·σ)².
+                var bow = _options.GaugeSunBowMicroPerK * ((sumT / withT) - minT) * count;
+                meanSysVar += bow * bow;
+            }
         }
 
         if (count < 3)
@@ -881,11 +1062,11 @@ public sealed class SiloMonitor
 
         // The mean over n gauges has 1/n of one gauge's noise variance.
         meanNoiseVar /= (double)count * count;
-        meanThermalVar /= (double)count * count;
+        meanSysVar /= (double)count * count;
         return RingFit.TryFit(_ringAngles.AsSpan(0, count), _ringValues.AsSpan(0, count), out c0, out a1, out b1);
     }
 
-    private void UpdateDrift(long ts, double totalKn)
+    private void UpdateDrift(long ts, double totalKn, bool clean)
     {
         if (_drift is null)
         {
@@ -893,7 +1074,7 @@ public sealed class SiloMonitor
         }
 
         var significant = totalKn * KgPerKn > _options.DriftMinLoadFraction * _model.CapacityKg;
-        var mask = _drift.Update(_net, ts, significant);
+        var mask = _drift.Update(_net, ts, significant, clean);
         for (var k = 0; k < _cells.Length; k++)
         {
             _channels[_cells[k]].Drifting = (mask & (1 << k)) != 0;
@@ -986,10 +1167,12 @@ public sealed class SiloMonitor
             : (material.UnitWeightUpperKnM3 - material.UnitWeightLowerKnM3) / Math.Sqrt(12) / material.UnitWeightMeanKnM3;
 
         // K·μ: the characteristic values X_m·a and X_m/a taken as 95 % fractiles of a log-normal [D: EN 1990 reads
-        // characteristic values as 5 %/95 % fractiles, M], so σ_ln = ln(a)/1.645 for each, combined.
+        // characteristic values as 5 %/95 % fractiles, M], so σ_ln = ln(a)/1.645 for each. K and μ are not taken as
+        // independent: the library's factors are from memory for most solids (materials.json says which), and a
+        // solid that packs more densely moves both, so they add, ln(a_K) + ln(a_μ), rather than in quadrature [D: a choice].
         var kMu = options.KMuRelativeStd > 0
             ? options.KMuRelativeStd
-            : Math.Sqrt(Math.Pow(Math.Log(material.KFactor), 2) + Math.Pow(Math.Log(material.WallFrictionFactor), 2)) / 1.645;
+            : (Math.Log(material.KFactor) + Math.Log(material.WallFrictionFactor)) / 1.645;
         return (gamma, kMu);
     }
 }

@@ -161,6 +161,12 @@ public enum SensorKind
     AxialStrain,
     HoopStrain,
     Temperature,
+
+    /// <summary>
+    /// An outlet signal from the plant's control system: 1 while the outlet gate is open or the discharge feeder runs,
+    /// 0 while it is closed or stopped (unit "state", range 0..1). The discharge state follows it while it is fresh.
+    /// </summary>
+    Outlet,
 }
 
 public enum BridgeType
@@ -178,7 +184,7 @@ public sealed class SensorOptions
 
     public SensorKind Kind { get; set; }
 
-    /// <summary>The unit the gateway sends: "mV/V" for bridges, "degC" for temperatures.</summary>
+    /// <summary>The unit the gateway sends: "mV/V" for bridges, "degC" for temperatures, "state" (0 or 1) for an outlet signal.</summary>
     public string Unit { get; set; } = "";
 
     /// <summary>Expected interval between samples. Default 1 s.</summary>
@@ -256,8 +262,12 @@ public sealed class AlarmLimitOptions
     /// <summary>Support overload limit, percent of a support's rated capacity.</summary>
     public double SupportOverloadPercent { get; set; } = 90;
 
-    /// <summary>First-harmonic ratio A1/A0 of a wall ring during discharge above which asymmetry is flagged.</summary>
-    public double AsymmetryRatioA1 { get; set; } = 0.35;
+    /// <summary>
+    /// First-harmonic ratio A1/A0 of a wall ring during discharge above which asymmetry is flagged. Default 0.10, a
+    /// placeholder: a flow channel against the wall is a local pattern whose first harmonic is small (about 0.1-0.2 of
+    /// the mean load), so a limit much higher would never see one (see simulators/README.md, eccentric discharge).
+    /// </summary>
+    public double AsymmetryRatioA1 { get; set; } = 0.10;
 
     /// <summary>Measured over expected wall load above which excess is flagged.</summary>
     public double ExcessLoadRatio { get; set; } = 1.25;

@@ -25,6 +25,7 @@ public static partial class PlantValidator
     public static IReadOnlyList<string> AllowedUnits(SensorKind kind) => kind switch
     {
         SensorKind.Temperature => ["degC"],
+        SensorKind.Outlet => ["state"],
         _ => ["mV/V"],
     };
 
@@ -282,6 +283,18 @@ public static partial class PlantValidator
                     PositiveS(sensor.ExcitationV, sk + ":ExcitationV", "excitation must be a positive number of volts");
                     break;
                 case SensorKind.Temperature:
+                    break;
+                case SensorKind.Outlet:
+                    if (sensor.RangeMin != 0 || sensor.RangeMax != 1)
+                    {
+                        AddS(sk + ":RangeMin/RangeMax", $"{Format(sensor.RangeMin)}..{Format(sensor.RangeMax)}", "an outlet signal is 0 (closed, stopped) or 1 (open, running): its range must be 0..1");
+                    }
+
+                    if (sensor.TemperatureSensor.Length > 0)
+                    {
+                        AddS(sk + ":TemperatureSensor", sensor.TemperatureSensor, "an outlet signal has no temperature compensation");
+                    }
+
                     break;
                 default:
                     AddS(sk + ":Kind", sensor.Kind, "unknown sensor kind");

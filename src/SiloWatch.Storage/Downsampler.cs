@@ -11,21 +11,28 @@ namespace SiloWatch.Storage;
 /// <para>
 /// An interval is emitted when the series' first point of a later interval arrives, on
 /// <see cref="FlushAsync"/>, or once the series has been silent for two intervals of wall time
-/// (a sensor that stops still gets its last interval written). A point arriving for an interval
+/// (checked by a timer each shortest interval, so after two to three intervals; a sensor that
+/// stops still gets its last interval written). A point arriving for an interval
 /// emitted that way is merged and the interval is written again with the same timestamp (the store
 /// keeps the newer value). A point older than the interval being filled is counted in
 /// <see cref="StorageHealth.LatePoints"/>, logged, and not written.
 /// </para>
 /// Measurements without a rule (or with Interval 0) pass through unchanged.
 /// </summary>
-public sealed partial class Downsampler : ITimeSeriesSink
+public sealed partial class Downsampler : ITimeSeriesSink, IIntervalCheckpoint
 {
+    // Marks a series looked up and found to have no rule (it passes through).
+    private static readonly object PassThrough = new();
+
     private readonly ITimeSeriesSink _inner;
     private readonly Dictionary<string, DownsamplingOptions> _rules;
-    private readonly TimeProvider _timeProvider;
     private readonly ILogger _logger;
     private readonly ConcurrentDictionary<SeriesKey, SeriesState?> _states = new();
+    private readonly Lock _grow = new();
     private readonly ITimer? _idleTimer;
+    private readonly TimeSpan _tickPeriod;
+    private volatile object?[] _byId = new object?[256]; // SeriesState or PassThrough by SeriesKey.Id: no hashing per point
+    private long _tick; // idle-timer ticks: a point records it instead of reading the clock
     private long _late;
     private int _disposed;
 
@@ -37,12 +44,11 @@ public sealed partial class Downsampler : ITimeSeriesSink
         ArgumentNullException.ThrowIfNull(logger);
         _inner = inner;
         _rules = rules.Where(r => r.Value.Interval > TimeSpan.Zero).ToDictionary(r => r.Key, r => r.Value, StringComparer.Ordinal);
-        _timeProvider = timeProvider;
         _logger = logger;
         if (_rules.Count > 0)
         {
-            var period = _rules.Values.Min(r => r.Interval);
-            _idleTimer = timeProvider.CreateTimer(static s => ((Downsampler)s!).CloseIdle(), this, period, period);
+            _tickPeriod = _rules.Values.Min(r => r.Interval);
+            _idleTimer = timeProvider.CreateTimer(static s => ((Downsampler)s!).CloseIdle(), this, _tickPeriod, _tickPeriod);
         }
     }
 
@@ -58,11 +64,7 @@ public sealed partial class Downsampler : ITimeSeriesSink
     public void Write(SeriesKey series, long timestampMs, ReadOnlySpan<double> values)
     {
         ArgumentNullException.ThrowIfNull(series);
-        if (!_states.TryGetValue(series, out var state))
-        {
-            state = _states.GetOrAdd(series, CreateState);
-        }
-
+        var state = StateOf(series);
         if (state is null)
         {
             _inner.Write(series, timestampMs, values);
@@ -74,7 +76,7 @@ public sealed partial class Downsampler : ITimeSeriesSink
             throw new ArgumentException($"{series.Measurement} takes {series.FieldNames.Count} values, got {values.Length}", nameof(values));
         }
 
-        if (!state.Add(timestampMs, values, _timeProvider.GetTimestamp(), _inner))
+        if (!state.Add(timestampMs, values, Volatile.Read(ref _tick), _inner))
         {
             var late = Interlocked.Increment(ref _late);
             if (long.IsPow2(late))
@@ -90,6 +92,47 @@ public sealed partial class Downsampler : ITimeSeriesSink
     {
         EmitAll();
         await _inner.FlushAsync(ct).ConfigureAwait(false);
+    }
+
+    /// <summary>Flushes what was emitted to the store behind; open intervals stay open.</summary>
+    public Task FlushStoredAsync(CancellationToken ct) => _inner.FlushAsync(ct);
+
+    public OpenInterval? CaptureInterval(SeriesKey series)
+    {
+        ArgumentNullException.ThrowIfNull(series);
+        return StateOf(series)?.Capture();
+    }
+
+    public void RestoreInterval(SeriesKey series, OpenInterval interval)
+    {
+        ArgumentNullException.ThrowIfNull(series);
+        ArgumentNullException.ThrowIfNull(interval);
+        StateOf(series)?.Restore(interval, Volatile.Read(ref _tick));
+    }
+
+    private SeriesState? StateOf(SeriesKey series)
+    {
+        var byId = _byId;
+        var id = series.Id;
+        if ((uint)id < (uint)byId.Length && byId[id] is { } known)
+        {
+            return known as SeriesState;
+        }
+
+        var state = _states.GetOrAdd(series, CreateState);
+        lock (_grow)
+        {
+            byId = _byId;
+            if (id >= byId.Length)
+            {
+                Array.Resize(ref byId, Math.Max(byId.Length * 2, id + 1));
+            }
+
+            byId[id] = (object?)state ?? PassThrough;
+            _byId = byId;
+        }
+
+        return state;
     }
 
     public async ValueTask DisposeAsync()
@@ -118,18 +161,21 @@ public sealed partial class Downsampler : ITimeSeriesSink
 
     private void CloseIdle()
     {
-        var now = _timeProvider.GetTimestamp();
+        var now = Interlocked.Increment(ref _tick);
         foreach (var state in _states.Values)
         {
-            if (state is not null && _timeProvider.GetElapsedTime(state.LastArrival, now) >= state.Interval * 2)
+            if (state is not null && now - state.LastArrival >= state.IdleTicks)
             {
                 state.EmitIfDirty(_inner);
             }
         }
     }
 
+    // Silent for two intervals: a point arrives up to one tick after the tick it records, so one tick more.
     private SeriesState? CreateState(SeriesKey series) =>
-        _rules.TryGetValue(series.Measurement, out var rule) ? new SeriesState(series, rule) : null;
+        _rules.TryGetValue(series.Measurement, out var rule)
+            ? new SeriesState(series, rule, 1 + (long)Math.Ceiling(2 * rule.Interval.TotalMilliseconds / Math.Max(1, _tickPeriod.TotalMilliseconds)))
+            : null;
 
     [LoggerMessage(Level = LogLevel.Warning, Message = "Downsampling: point of {Series} at {TimestampMs} is older than the interval being filled and is not written ({LateCount} so far)")]
     private static partial void LogLate(ILogger logger, string series, long timestampMs, long lateCount);
@@ -150,10 +196,10 @@ public sealed partial class Downsampler : ITimeSeriesSink
         private long _bucket = long.MinValue;
         private bool _dirty;
 
-        public SeriesState(SeriesKey input, DownsamplingOptions rule)
+        public SeriesState(SeriesKey input, DownsamplingOptions rule, long idleTicks)
         {
             _intervalMs = Math.Max(1, (long)rule.Interval.TotalMilliseconds);
-            Interval = TimeSpan.FromMilliseconds(_intervalMs);
+            IdleTicks = idleTicks;
             var n = input.FieldNames.Count;
             _aggregates = [.. input.FieldNames.Select(f => rule.FieldAggregates.TryGetValue(f, out var a) ? a : rule.Aggregate)];
             _minMaxInputs = [.. rule.MinMaxFields.Select(f => input.FieldNames.ToList().IndexOf(f)).Where(i => i >= 0).Distinct()];
@@ -167,9 +213,40 @@ public sealed partial class Downsampler : ITimeSeriesSink
             Reset(long.MinValue);
         }
 
-        public TimeSpan Interval { get; }
+        /// <summary>Idle-timer ticks of silence after which a partly filled interval is written.</summary>
+        public long IdleTicks { get; }
 
+        /// <summary>The idle-timer tick of the last point.</summary>
         public long LastArrival { get; private set; }
+
+        public OpenInterval? Capture()
+        {
+            lock (_lock)
+            {
+                return _bucket == long.MinValue ? null : new OpenInterval(_bucket, _dirty, [.. _sum], [.. _count], [.. _min], [.. _max], [.. _last]);
+            }
+        }
+
+        public void Restore(OpenInterval interval, long tick)
+        {
+            var n = _sum.Length;
+            if (interval.Sum.Length != n || interval.Count.Length != n || interval.Min.Length != n || interval.Max.Length != n || interval.Last.Length != n)
+            {
+                throw new ArgumentException($"the saved interval has fields for {interval.Sum.Length} values, the series {n}", nameof(interval));
+            }
+
+            lock (_lock)
+            {
+                _bucket = interval.Bucket;
+                _dirty = interval.Dirty;
+                interval.Sum.CopyTo(_sum, 0);
+                interval.Count.CopyTo(_count, 0);
+                interval.Min.CopyTo(_min, 0);
+                interval.Max.CopyTo(_max, 0);
+                interval.Last.CopyTo(_last, 0);
+                LastArrival = tick;
+            }
+        }
 
         /// <returns>False when the point is older than the interval being filled.</returns>
         public bool Add(long timestampMs, ReadOnlySpan<double> values, long arrival, ITimeSeriesSink sink)

@@ -22,8 +22,39 @@ public interface ITimeSeriesSink : IAsyncDisposable
     /// </summary>
     Task FlushAsync(CancellationToken ct);
 
+    /// <summary>
+    /// Completes when every point the store has been given so far is stored, or durably spooled,
+    /// without closing what is still being aggregated (the downsampler's open intervals stay open:
+    /// their state belongs in the caller's checkpoint, see <see cref="IIntervalCheckpoint"/>).
+    /// The default is <see cref="FlushAsync"/>, for sinks that aggregate nothing.
+    /// </summary>
+    Task FlushStoredAsync(CancellationToken ct) => FlushAsync(ct);
+
     StorageHealth Health { get; }
 }
+
+/// <summary>
+/// A sink that aggregates points into open intervals before they reach the store (the
+/// <see cref="Downsampler"/>). A caller that checkpoints its input position saves the open
+/// interval of each of its series with it and restores it after a restart, so that the interval
+/// is completed with exactly the points it would have had, neither losing nor counting twice the
+/// points before the checkpoint.
+/// </summary>
+public interface IIntervalCheckpoint
+{
+    /// <summary>The open interval of <paramref name="series"/>, or null when it has none (or is not aggregated).</summary>
+    OpenInterval? CaptureInterval(SeriesKey series);
+
+    /// <summary>Replaces the open interval of <paramref name="series"/> with <paramref name="interval"/> (before any point of it is written).</summary>
+    void RestoreInterval(SeriesKey series, OpenInterval interval);
+}
+
+/// <summary>
+/// The state of one open downsampling interval: its index (timestamp / interval, floored), whether
+/// it holds points not yet written, and the per-field accumulators (NaN and infinities included,
+/// so serialise with named floating-point literals allowed).
+/// </summary>
+public sealed record OpenInterval(long Bucket, bool Dirty, double[] Sum, int[] Count, double[] Min, double[] Max, double[] Last);
 
 /// <summary>A snapshot of the write path's state, for health checks and the status page.</summary>
 public sealed record StorageHealth

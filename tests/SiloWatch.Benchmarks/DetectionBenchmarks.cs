@@ -1,445 +1,501 @@
 using System.Diagnostics;
 using System.Globalization;
 using SiloWatch.Mechanics;
+using SiloWatch.Messaging;
 using SiloWatch.Monitoring;
 using SiloWatch.Monitoring.Alarms;
 using SiloWatch.Monitoring.Wall;
 using SiloWatch.Plant;
+using SiloWatch.Simulator.Materials;
+using SiloWatch.Simulator.Model;
+using SiloWatch.Simulator.Output;
+using SiloWatch.Simulator.Scenarios;
 
 namespace SiloWatch.Benchmarks;
 
 /// <summary>
-/// Detection benchmark of the wall-load watch: invented telemetry for demo silo S1 through the whole
-/// monitoring chain (SiloMonitor → WallWatch → AlarmEngine), once a second on a simulated clock.
-/// Generator: load cells from the contents' support reactions; ring gauges from Mechanics' expected
-/// strains for the mass and flow, plus an eccentric-discharge first harmonic (ratio × the expected mean
-/// discharge load, ramped in over 10 s), wind gusts (n = 2 ovalisation and some n = 1 bending), one-sided
-/// solar heating following the sun with passing clouds and a per-gauge residual thermal strain
-/// (2–6 µε/K, unknown to the watch), and white noise; everything sent as mV/V and degC.
+/// Detection benchmark of the wall-load watch, driven by the plant simulator (simulators/SiloWatch.Simulator):
+/// demo silo S1 is simulated with its own physics (slice equations, discharge factors, an eccentric flow channel,
+/// wind gusts, the sun with passing clouds, sensor noise); every message goes through the service's decoder and
+/// the whole monitoring chain (SiloMonitor → WallWatch → AlarmEngine) once a second of simulated time, and the
+/// alarms are scored against the ground-truth CSV the simulator writes beside each run (flow state, flow-channel
+/// azimuth, true first-harmonic ratio <c>wall_a1_ratio</c>).
+/// <para>
+/// Eccentric cases: the true ratio is a multiple of the silo's A1/A0 setpoint (0 = concentric). The flow channel's
+/// size is found per run by bisection on the simulator's own truth (radius k·R, centred on the wall) so that
+/// the truth reads the target a minute into the discharge. Expected direction of the alarm: opposite the channel
+/// (the load rises beside and away from it, DOMAIN.md §4). False-alarm cases: days of concentric discharges and
+/// fills, overcast or sunny with passing clouds.
+/// </para>
 /// Usage: dotnet run -c Release --project tests/SiloWatch.Benchmarks -- detection [runsPerCase] [falseAlarmDays] [multiples, e.g. 0,1.2]
 /// </summary>
 public static class DetectionDriver
 {
     private const string SiloId = "S1";
+    private const double ChannelCentreRatio = 1.0;
+    private static readonly DateTimeOffset Epoch = new(2026, 6, 1, 0, 0, 0, TimeSpan.Zero);
 
     public static int Run(string[] args)
     {
         var runs = args.Length > 0 ? int.Parse(args[0], CultureInfo.InvariantCulture) : 100;
-        var days = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 42;
-        var multiples = args.Length > 2 ? args[2].Split(',').Select(x => double.Parse(x, CultureInfo.InvariantCulture)).ToArray() : [0.0, 0.5, 0.8, 1.2, 1.5, 2.0];
-        var dir = Path.Combine(AppContext.BaseDirectory, "config");
-        var materials = MaterialLibrary.Load(Path.Combine(dir, "materials.json"));
-        var (plant, findings) = PlantLoader.LoadFile(Path.Combine(dir, "plant.demo.json"), materials.Names);
-        if (findings.Count > 0)
-        {
-            Console.Error.WriteLine("demo plant has findings: " + string.Join("; ", findings));
-            return 1;
-        }
-
-        var registry = new PlantRegistry(plant);
-        registry.TryGetSilo("brackenford", SiloId, out var silo);
-        var model = SiloModel.Create(silo.Options, materials.Get(silo.Options.Material));
-        var setpoint = silo.Options.AlarmLimits.AsymmetryRatioA1;
+        var days = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 60;
+        double[] multiples = args.Length > 2 ? [.. args[2].Split(',').Select(x => double.Parse(x, CultureInfo.InvariantCulture))] : [0.0, 0.8, 1.2, 2.0];
+        var bench = Bench.Load();
         var clock = Stopwatch.StartNew();
+        var setpoint = bench.Silo.Options.AlarmLimits.AsymmetryRatioA1;
+        Console.WriteLine($"Detection benchmark, silo {bench.Silo.Key} ({bench.Silo.Options.Material}, d {bench.Silo.Options.Geometry.DiameterM} m, h {bench.Silo.Options.Geometry.WallHeightM} m), A1/A0 setpoint {setpoint} (placeholder)");
+        Console.WriteLine("Plant simulator (its own physics) → service decoder → SiloMonitor → WallWatch → AlarmEngine, 1 s steps; scored against the simulator's truth CSV.");
+        Console.WriteLine("Each run: 15 min idle, then a 10 min discharge at 15-40 kg/s from 60-95 % full; sun in half the runs, passing clouds, gusts, noise.");
 
-        Console.WriteLine($"Detection benchmark, silo {silo.Key} ({silo.Options.Material}, d {silo.Options.Geometry.DiameterM} m, h {silo.Options.Geometry.WallHeightM} m), A1/A0 setpoint {setpoint}");
-        Console.WriteLine("Eccentric discharges: true first-harmonic ratio = multiple × setpoint; equivalent e/r = ratio/2 (thin shell under N and M = N·e [D]).");
-        Console.WriteLine($"{"multiple",8} {"ratio",6} {"e/r",5} {"runs",5} {"detected",9} {"median s",9} {"p90 s",7} {"max s",7} {"dir err med",12} {"dir err max",12}");
-        // One installation: the gauges' residual thermal strains are learned once, over a sunny idle day, and every
-        // detection run starts from that learned state (as a silo in service would).
-        var warm = new Simulation(silo, model, seed: 1);
-        var learned = warm.IdleDay();
+        // One installation: the gauges' residual thermal strains are learned over a sunny idle day with passing clouds,
+        // and every run starts from that learned state, as a silo in service would.
+        var learned = bench.LearnThermal();
+        Console.WriteLine($"{"multiple",8} {"target",7} {"truth",7} {"k",5} {"runs",5} {"detected",9} {"median s",9} {"p90 s",7} {"max s",7} {"dir err med",12} {"dir err max",12}");
+        var concentricHours = 0.0;
+        var concentricFalse = 0;
         foreach (var multiple in multiples)
         {
-            var ratio = multiple * setpoint;
+            var target = multiple * setpoint;
             var times = new List<double>();
-            var dirErrors = new List<double>();
+            var errors = new List<double>();
+            var truths = new List<double>();
+            var sizes = new List<double>();
             var detected = 0;
             for (var r = 0; r < runs; r++)
             {
-                var sim = new Simulation(silo, model, seed: 1000 + (int)(multiple * 100) + (r * 7919), learned);
-                var result = sim.EccentricDischarge(ratio);
-                if (result.DetectedAfterS is not null && multiple == 0)
+                var result = bench.EccentricRun(target, 1000 + (int)Math.Round(multiple * 100) + (r * 7919), learned);
+                truths.Add(result.TrueRatio);
+                sizes.Add(result.ChannelRadiusRatio);
+                if (multiple == 0)
                 {
-                    Console.WriteLine(string.Create(CultureInfo.InvariantCulture, $"    false alarm in concentric run {r}: {result.Note}"));
+                    concentricHours += result.SiloHours;
+                    if (result.DetectedAfterS is not null)
+                    {
+                        concentricFalse++;
+                        Console.WriteLine($"    false alarm in concentric run {r}: {result.Note}");
+                    }
                 }
 
                 if (result.DetectedAfterS is { } t)
                 {
                     detected++;
                     times.Add(t);
-                    dirErrors.Add(result.DirectionErrorDeg);
+                    errors.Add(result.DirectionErrorDeg);
                 }
             }
 
             times.Sort();
-            dirErrors.Sort();
+            errors.Sort();
+            truths.Sort();
             Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                $"{multiple,8:0.0} {ratio,6:0.000} {ratio / 2,5:0.000} {runs,5} {100.0 * detected / runs,8:0.0}% {Pct(times, 0.5),9:0.0} {Pct(times, 0.9),7:0.0} {Pct(times, 1.0),7:0.0} {Pct(dirErrors, 0.5),12:0.0} {Pct(dirErrors, 1.0),12:0.0}"));
+                $"{multiple,8:0.0} {target,7:0.000} {Pct(truths, 0.5),7:0.000} {sizes.Average(),5:0.00} {runs,5} {100.0 * detected / runs,8:0.0}% {Pct(times, 0.5),9:0.0} {Pct(times, 0.9),7:0.0} {Pct(times, 1.0),7:0.0} {Pct(errors, 0.5),12:0.0} {Pct(errors, 1.0),12:0.0}"));
         }
 
+        Console.WriteLine("(target: multiple × setpoint; truth: median of the truth CSV's wall_a1_ratio a minute into the discharge; k: mean channel radius ratio)");
         Console.WriteLine();
-        Console.WriteLine($"False alarms: {days} days per case, 4 concentric discharges and 2 fills a day, wind gusts, noise.");
-        Console.WriteLine($"{"case",-34} {"silo-h",7} {"wall alarms",12} {"per 1000 h",11} {"other alarms",13} {"max A1/A0",10}");
-        foreach (var (name, sun) in new[] { ("concentric, overcast", false), ("concentric, sun and passing clouds", true) })
+        Console.WriteLine($"False alarms: {days} days per case, 4 concentric discharges and 2 fills a day, gusts, noise.");
+        Console.WriteLine($"{"case",-36} {"silo-h",7} {"disch-h",8} {"wall alarms",12} {"per 1000 h",11} {"other alarms",13} {"max A1/A0",10}");
+        var totalHours = concentricHours;
+        var totalFalse = concentricFalse;
+        foreach (var (name, sunny) in new[] { ("concentric, overcast", false), ("concentric, sun and passing clouds", true) })
         {
-            var sim = new Simulation(silo, model, seed: sun ? 77 : 78);
-            var result = sim.Days(days, sun);
+            var result = bench.Days(days, sunny, sunny ? 77 : 78, learned);
+            totalHours += result.Hours;
+            totalFalse += result.WallAlarms;
             Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                $"{name,-34} {result.Hours,7:0} {result.WallAlarms,12} {1000.0 * result.WallAlarms / result.Hours,11:0.00} {result.OtherAlarms,13} {result.MaxA1,10:0.000}"));
-            foreach (var line in result.OtherAlarmIds.GroupBy(x => x).Select(g => $"    other: {g.Key} × {g.Count()}"))
+                $"{name,-36} {result.Hours,7:0} {result.DischargeHours,8:0.0} {result.WallAlarms,12} {1000.0 * result.WallAlarms / result.Hours,11:0.00} {result.OtherAlarms.Count,13} {result.MaxA1,10:0.000}"));
+            foreach (var line in result.OtherAlarms.GroupBy(x => x).Select(g => $"    other: {g.Key} × {g.Count()}"))
             {
                 Console.WriteLine(line);
             }
         }
 
+        Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
+            $"all concentric and thermal cases: {totalFalse} wall-load alarm(s) in {totalHours:0} silo-hours = {1000.0 * totalFalse / totalHours:0.00} per 1000 silo-hours"));
         Console.WriteLine($"elapsed {clock.Elapsed.TotalSeconds:0} s");
         return 0;
     }
 
     private static double Pct(List<double> sorted, double p) =>
-        sorted.Count == 0 ? double.NaN : sorted[Math.Min(sorted.Count - 1, (int)Math.Ceiling(p * sorted.Count) - 1 < 0 ? 0 : (int)Math.Ceiling(p * sorted.Count) - 1)];
+        sorted.Count == 0 ? double.NaN : sorted[Math.Clamp((int)Math.Ceiling(p * sorted.Count) - 1, 0, sorted.Count - 1)];
 
-    private sealed record DetectionResult(double? DetectedAfterS, double DirectionErrorDeg, string Note = "");
+    internal sealed record RunResult(double? DetectedAfterS, double DirectionErrorDeg, double TrueRatio, double ChannelRadiusRatio, double SiloHours, string Note = "");
 
-    private sealed record DaysResult(double Hours, int WallAlarms, int OtherAlarms, double MaxA1, List<string> OtherAlarmIds);
+    internal sealed record DaysResult(double Hours, double DischargeHours, int WallAlarms, List<string> OtherAlarms, double MaxA1);
+
+    /// <summary>The demo plant reduced to S1, in the simulator's and the service's terms.</summary>
+    private sealed class Bench
+    {
+        private readonly PlantOptions _plant;
+        private readonly IReadOnlyDictionary<string, MaterialProperties> _simMaterials;
+        private readonly SiloModel _model;
+        private readonly string _truthDir;
+
+        private Bench(PlantOptions plant, IReadOnlyDictionary<string, MaterialProperties> simMaterials, SiloRef silo, SiloModel model)
+        {
+            _plant = plant;
+            _simMaterials = simMaterials;
+            Silo = silo;
+            _model = model;
+            _truthDir = Path.Combine(Path.GetTempPath(), $"silowatch-detection-{Environment.ProcessId.ToString(CultureInfo.InvariantCulture)}");
+            Directory.CreateDirectory(_truthDir);
+        }
+
+        public SiloRef Silo { get; }
+
+        public static Bench Load()
+        {
+            var dir = Path.Combine(AppContext.BaseDirectory, "config");
+            var library = MaterialLibrary.Load(Path.Combine(dir, "materials.json"));
+            var simMaterials = MaterialReader.LoadFile(Path.Combine(dir, "materials.json"));
+            var (full, findings) = PlantLoader.LoadFile(Path.Combine(dir, "plant.demo.json"), library.Names);
+            if (findings.Count > 0)
+            {
+                throw new InvalidOperationException("demo plant has findings: " + string.Join("; ", findings));
+            }
+
+            var site = full.Sites.First(s => s.Silos.Any(x => x.Id == SiloId));
+            var plant = new PlantOptions
+            {
+                Sites = [new SiteOptions { Id = site.Id, Name = site.Name, TimeZone = site.TimeZone, Silos = [site.Silos.First(x => x.Id == SiloId)] }],
+            };
+            var silo = new PlantRegistry(plant).Silos[0];
+            return new Bench(plant, simMaterials, silo, SiloModel.Create(silo.Options, library.Get(silo.Options.Material)));
+        }
+
+        /// <summary>A sunny idle day with passing clouds: the wall watch learns each gauge's residual thermal strain.</summary>
+        public WallSnapshot LearnThermal()
+        {
+            var scenario = Scenario(TimeSpan.FromHours(24), Epoch, sunny: true, fillPercent: 80);
+            var chain = new Chain(Silo, _model, null);
+            Play(scenario, 1, chain, truthPath: null);
+            return chain.Watch.Snapshot(chain.NowMs) with { State = DischargeState.Idle, BaselineMassKg = null };
+        }
+
+        public RunResult EccentricRun(double targetRatio, int seed, WallSnapshot learned)
+        {
+            var random = new Random(seed);
+            var start = Epoch.AddDays(2 + random.Next(300)).AddHours(random.NextDouble() * 24);
+            var sunny = random.NextDouble() < 0.5;
+            var fill = 60 + (35 * random.NextDouble());
+            var rate = 15 + (25 * random.NextDouble());
+            var azimuth = Math.Round(360 * random.NextDouble(), 1);
+            var k = targetRatio > 0 ? ChannelSizeFor(targetRatio, fill, rate, start) : 0;
+            var scenario = Scenario(TimeSpan.FromMinutes(25), start, sunny, fill);
+            scenario.Events.Add(new ScenarioEvent
+            {
+                At = TimeSpan.FromMinutes(15),
+                Type = ScenarioEventType.Discharge,
+                Silo = SiloId,
+                RateKgPerS = rate,
+                ChannelAzimuthDeg = targetRatio > 0 ? azimuth : null,
+                ChannelRadiusRatio = k,
+                ChannelEccentricityRatio = ChannelCentreRatio,
+                Note = "benchmark discharge",
+            });
+
+            var chain = new Chain(Silo, _model, learned);
+            var truthPath = Path.Combine(_truthDir, $"run-{seed.ToString(CultureInfo.InvariantCulture)}.csv");
+            Play(scenario, seed, chain, truthPath);
+            var truth = TruthFile.Read(truthPath);
+            File.Delete(truthPath);
+
+            var onset = truth.First(t => t.Flow == "discharging").Time;
+            var trueRatio = truth.Where(t => t.Flow == "discharging" && t.Time >= onset.AddSeconds(50) && t.Time <= onset.AddSeconds(70)).Select(t => t.WallA1Ratio).DefaultIfEmpty(0).Average();
+            var channel = truth.FirstOrDefault(t => t.ChannelAzimuthDeg is not null)?.ChannelAzimuthDeg;
+            var hours = (truth[^1].Time - truth[0].Time).TotalHours;
+            var first = chain.Detections.FirstOrDefault(d => d.TimestampMs >= onset.ToUnixTimeMilliseconds());
+            if (first is null)
+            {
+                return new RunResult(null, double.NaN, trueRatio, k, hours);
+            }
+
+            // The load rises beside and away from the flow channel: the alarm's direction should be the channel's + 180°.
+            var error = channel is { } c ? AngleBetween(first.DirectionDeg, c + 180) : double.NaN;
+            var after = (first.TimestampMs - onset.ToUnixTimeMilliseconds()) / 1000.0;
+            return new RunResult(after, error, trueRatio, k, hours,
+                string.Create(CultureInfo.InvariantCulture, $"{first.AlarmId} {after:0} s after onset, value {first.Value:0.000}, toward {first.DirectionDeg:0}°, sun {sunny}, fill {fill:0} %"));
+        }
+
+        /// <summary>Days of ordinary operation at S1: concentric discharges and fills; every wall-load alarm is false.</summary>
+        public DaysResult Days(int days, bool sunny, int seed, WallSnapshot learned)
+        {
+            var random = new Random(seed);
+            var scenario = Scenario(TimeSpan.FromDays(days), Epoch.AddDays(1), sunny, fillPercent: 70);
+            var capacityKg = _model.CapacityKg;
+            var massKg = 0.7 * capacityKg;
+            var dischargeHours = 0.0;
+            for (var d = 0; d < days; d++)
+            {
+                (double StartH, double Rate, double Minutes)[] plan =
+                [
+                    (2 + random.NextDouble(), 25, 0),
+                    (7 + (2 * random.NextDouble()), -(15 + (25 * random.NextDouble())), 15 + (10 * random.NextDouble())),
+                    (10 + (2 * random.NextDouble()), -(15 + (25 * random.NextDouble())), 15 + (10 * random.NextDouble())),
+                    (13 + (2 * random.NextDouble()), 25, 0),
+                    (16 + (2 * random.NextDouble()), -(15 + (25 * random.NextDouble())), 15 + (10 * random.NextDouble())),
+                    (19 + (2 * random.NextDouble()), -(15 + (25 * random.NextDouble())), 15 + (10 * random.NextDouble())),
+                ];
+                foreach (var (startH, rate, minutes) in plan)
+                {
+                    var at = TimeSpan.FromDays(d) + TimeSpan.FromHours(startH);
+                    if (rate > 0)
+                    {
+                        var kg = Math.Max(0, (0.9 * capacityKg) - massKg);
+                        scenario.Events.Add(new ScenarioEvent { At = at, Type = ScenarioEventType.Delivery, Silo = SiloId, MassKg = kg, RateKgPerS = rate, Note = "benchmark fill" });
+                        massKg += kg;
+                    }
+                    else
+                    {
+                        var kg = Math.Min(minutes * 60 * -rate, Math.Max(0, massKg - (0.15 * capacityKg)));
+                        scenario.Events.Add(new ScenarioEvent { At = at, Type = ScenarioEventType.Discharge, Silo = SiloId, MassKg = kg, RateKgPerS = -rate, Note = "benchmark concentric discharge" });
+                        massKg -= kg;
+                        dischargeHours += kg / -rate / 3600;
+                    }
+                }
+            }
+
+            var chain = new Chain(Silo, _model, learned) { AcknowledgeDaily = true };
+            Play(scenario, seed, chain, truthPath: null);
+            var wall = chain.Activations.Count(t => IsWallLoad(t.Condition));
+            var others = chain.Activations.Where(t => !IsWallLoad(t.Condition)).Select(t => t.AlarmId).ToList();
+            return new DaysResult(days * 24.0, dischargeHours, wall, others, chain.MaxA1WhileDischarging);
+        }
+
+        private static bool IsWallLoad(string condition) =>
+            condition.Contains("/asymmetry-", StringComparison.Ordinal) || condition.Contains("/excess/", StringComparison.Ordinal);
+
+        /// <summary>
+        /// Radius ratio k of a flow channel (centred on the wall) whose truth ratio a minute into the discharge is
+        /// <paramref name="target"/>: bisection on the simulator's own truth, still air, no sun, no noise.
+        /// </summary>
+        private double ChannelSizeFor(double target, double fillPercent, double rate, DateTimeOffset start)
+        {
+            double lo = 0.15, hi = 1.0;
+            for (var i = 0; i < 12; i++)
+            {
+                var k = 0.5 * (lo + hi);
+                var scenario = Scenario(TimeSpan.FromSeconds(75), start, sunny: false, fillPercent);
+                scenario.Weather.WindMeanMs = 0;
+                scenario.Weather.GustsPerHour = 0;
+                scenario.Weather.PassingCloudsPerHour = 0;
+                scenario.Events.Add(new ScenarioEvent
+                {
+                    At = TimeSpan.FromSeconds(10),
+                    Type = ScenarioEventType.Discharge,
+                    Silo = SiloId,
+                    RateKgPerS = rate,
+                    ChannelAzimuthDeg = 0,
+                    ChannelRadiusRatio = k,
+                    ChannelEccentricityRatio = ChannelCentreRatio,
+                });
+                var model = new PlantModel(_plant, _simMaterials, scenario, 1, start);
+                var ratio = 0.0;
+                foreach (var tick in model.Run())
+                {
+                    foreach (var row in tick.Truth)
+                    {
+                        ratio = row.WallA1Ratio;
+                    }
+                }
+
+                if (ratio < target)
+                {
+                    lo = k;
+                }
+                else
+                {
+                    hi = k;
+                }
+            }
+
+            return 0.5 * (lo + hi);
+        }
+
+        private static Scenario Scenario(TimeSpan duration, DateTimeOffset start, bool sunny, double fillPercent) => new()
+        {
+            Name = "detection-benchmark",
+            Start = start,
+            Duration = duration,
+            TruthInterval = TimeSpan.FromSeconds(5),
+            Weather = new WeatherSettings
+            {
+                AirMeanC = 16,
+                AirSwingC = 6,
+                SunriseHour = 5,
+                SunsetHour = 21,
+                SunWarmingK = sunny ? 15 : 0,
+                Cloudiness = sunny ? 0 : 1,
+                PassingCloudsPerHour = sunny ? 3 : 0,
+                WindMeanMs = 4,
+                WindFromDeg = 240,
+                GustsPerHour = 6,
+                GustMs = 10,
+            },
+            Silos = [new SiloSetup { Silo = SiloId, InitialFillPercent = fillPercent }],
+        };
+
+        private void Play(Scenario scenario, int seed, Chain chain, string? truthPath)
+        {
+            var model = new PlantModel(_plant, _simMaterials, scenario, seed, scenario.Start!.Value);
+            using var truth = truthPath is null ? null : TruthCsvWriter.Create(truthPath);
+            var next = DateTimeOffset.MinValue;
+            foreach (var tick in model.Run())
+            {
+                chain.Clock.Now = tick.Time;
+                var nowMs = tick.Time.ToUnixTimeMilliseconds();
+                foreach (var m in tick.Messages)
+                {
+                    chain.Decoder.Decode(m.Message.ToPayload(), nowMs, chain);
+                }
+
+                foreach (var row in tick.Truth)
+                {
+                    truth?.Write(row);
+                }
+
+                if (tick.Time >= next)
+                {
+                    next = tick.Time.AddSeconds(1);
+                    chain.Evaluate(nowMs);
+                }
+            }
+        }
+    }
+
+    private static double AngleBetween(double a, double b)
+    {
+        var d = Math.Abs((((a - b) % 360) + 360) % 360);
+        return Math.Min(d, 360 - d);
+    }
+
+    internal sealed record Detection(long TimestampMs, string AlarmId, double Value, double DirectionDeg);
+
+    /// <summary>The service's monitoring chain for one silo on a simulated clock.</summary>
+    private sealed class Chain : ITelemetryReceiver
+    {
+        private long _lastDay = long.MinValue;
+
+        public Chain(SiloRef silo, SiloModel model, WallSnapshot? learned)
+        {
+            Monitor = new SiloMonitor(silo, model, new MonitoringOptions(), Clock);
+            Watch = new WallWatch(silo, model, new WallWatchOptions());
+            Engine = new AlarmEngine(AlarmDefinitions.ForSilo(silo, model), Clock);
+            Decoder = new TelemetryDecoder(silo, new TelemetryDecoderOptions { MaxLateness = TimeSpan.Zero, MaxFutureSkew = TimeSpan.FromDays(3650) });
+            if (learned is not null)
+            {
+                Watch.Restore(learned);
+            }
+        }
+
+        public SimClock Clock { get; } = new();
+
+        public SiloMonitor Monitor { get; }
+
+        public WallWatch Watch { get; }
+
+        public AlarmEngine Engine { get; }
+
+        public TelemetryDecoder Decoder { get; }
+
+        public bool AcknowledgeDaily { get; init; }
+
+        public long NowMs => Clock.Now.ToUnixTimeMilliseconds();
+
+        public List<AlarmTransition> Activations { get; } = [];
+
+        public List<Detection> Detections { get; } = [];
+
+        public double MaxA1WhileDischarging { get; private set; }
+
+        public void OnSample(in TelemetrySample sample) => Monitor.OnSample(sample);
+
+        public void OnRejected(TelemetryRejection rejection)
+        {
+        }
+
+        public void Evaluate(long nowMs)
+        {
+            var inventory = Monitor.Evaluate(nowMs);
+            Watch.Update(Monitor.Readings);
+            var assessment = Watch.Evaluate(nowMs, inventory);
+            if (assessment.State == DischargeState.Discharging)
+            {
+                foreach (var r in assessment.Rings)
+                {
+                    if (double.IsFinite(r.A1Ratio))
+                    {
+                        MaxA1WhileDischarging = Math.Max(MaxA1WhileDischarging, r.A1Ratio);
+                    }
+                }
+            }
+
+            foreach (var t in Engine.Evaluate(assessment.Conditions))
+            {
+                if (t.To != AlarmStateName.Unacknowledged || t.From == AlarmStateName.Shelved)
+                {
+                    continue;
+                }
+
+                Activations.Add(t);
+                if (t.Condition.Contains("/asymmetry-a1/", StringComparison.Ordinal))
+                {
+                    var ring = t.Condition[(t.Condition.LastIndexOf('/') + 1)..];
+                    var direction = assessment.Rings.FirstOrDefault(r => r.Ring == ring)?.AsymmetryDirectionDeg ?? double.NaN;
+                    Detections.Add(new Detection(t.TimestampMs, t.AlarmId, t.Value ?? double.NaN, direction));
+                }
+            }
+
+            var day = nowMs / 86_400_000;
+            if (AcknowledgeDaily && day != _lastDay)
+            {
+                _lastDay = day;
+                foreach (var a in Engine.Active.Where(a => a.State is AlarmStateName.Latched or AlarmStateName.ReturnedToNormalUnacknowledged or AlarmStateName.Acknowledged or AlarmStateName.Unacknowledged))
+                {
+                    // The operator acknowledges and resets what the day left standing.
+                    Engine.Acknowledge(a.AlarmId, "bench");
+                    Engine.Reset(a.AlarmId, "bench");
+                }
+            }
+        }
+    }
 
     /// <summary>A fake clock the whole chain shares.</summary>
-    private sealed class SimClock(DateTimeOffset start) : TimeProvider
+    private sealed class SimClock : TimeProvider
     {
-        public DateTimeOffset Now { get; set; } = start;
+        public DateTimeOffset Now { get; set; } = Epoch;
 
         public override DateTimeOffset GetUtcNow() => Now;
     }
 
-    private sealed class Simulation
+    internal sealed record TruthLine(DateTimeOffset Time, string Flow, double? ChannelAzimuthDeg, double WallA1Ratio);
+
+    /// <summary>Reads the simulator's ground-truth CSV back (the columns this benchmark scores against).</summary>
+    private static class TruthFile
     {
-        private readonly SiloRef _silo;
-        private readonly SiloModel _model;
-        private readonly Random _random;
-        private readonly SimClock _time = new(new DateTimeOffset(2026, 6, 1, 0, 0, 0, TimeSpan.Zero));
-        private readonly SiloMonitor _monitor;
-        private readonly WallWatch _watch;
-        private readonly AlarmEngine _engine;
-        private readonly double[] _expected;
-        private readonly double[] _reactions;
-        private readonly double[] _residual;
-        private readonly GaugeModel?[] _gaugeOf;
-        private readonly double[] _ringMean;
-        private readonly int[] _ringOfGauge;
-        private readonly List<AlarmTransition> _transitions = [];
-        private readonly List<WallAssessment> _history = [];
-        private bool _keepHistory;
-        private WallAssessment? _lastAssessment;
-
-        private double _massKg;
-        private double _rateKgPerS;
-        private double _ratio;
-        private double _directionDeg;
-        private long _dischargeStartMs = long.MinValue;
-        private bool _sun;
-        private double _cloud = 1;
-        private double _cloudTarget = 1;
-        private long _gustEndMs;
-        private double _gustN2;
-        private double _gustN1;
-        private double _gustDirDeg;
-
-        public Simulation(SiloRef silo, SiloModel model, int seed, WallSnapshot? learned = null)
+        public static List<TruthLine> Read(string path)
         {
-            _silo = silo;
-            _model = model;
-            _random = new Random(seed);
-            _monitor = new SiloMonitor(silo, model, new MonitoringOptions(), _time);
-            _watch = new WallWatch(silo, model, new WallWatchOptions());
-            _engine = new AlarmEngine(AlarmDefinitions.ForSilo(silo, model), _time);
-            _expected = new double[model.Gauges.Count];
-            _reactions = new double[silo.Options.Weighing.SupportCount];
-            var installation = new Random(12345);
-            _residual = [.. model.Gauges.Select(_ => 2 + (4 * installation.NextDouble()))];
-            _gaugeOf = new GaugeModel?[silo.Options.Sensors.Count];
-            foreach (var g in model.Gauges)
+            var lines = File.ReadAllLines(path);
+            var header = lines[0].Split(',');
+            int Col(string name) => Array.IndexOf(header, name) is var i and >= 0 ? i : throw new InvalidDataException($"truth CSV has no column '{name}'");
+            int time = Col("time"), silo = Col("silo"), flow = Col("flow"), channel = Col("channel_azimuth_deg"), ratio = Col("wall_a1_ratio");
+            var rows = new List<TruthLine>();
+            foreach (var line in lines.Skip(1))
             {
-                _gaugeOf[g.SensorIndex] = g;
-            }
-
-            var rings = model.Gauges.Select(g => g.Ring).Distinct().ToList();
-            _ringOfGauge = [.. model.Gauges.Select(g => rings.IndexOf(g.Ring))];
-            _ringMean = new double[rings.Count];
-            if (learned is not null)
-            {
-                _watch.Restore(learned with { State = DischargeState.Idle, BaselineMassKg = null });
-            }
-        }
-
-        /// <summary>A sunny idle day (gauges learn their thermal sensitivity); returns the wall watch's snapshot.</summary>
-        public WallSnapshot IdleDay()
-        {
-            _sun = true;
-            _massKg = 0.8 * _model.CapacityKg;
-            Step(24 * 3600, 0);
-            return _watch.Snapshot(NowMs);
-        }
-
-        private long NowMs => _time.Now.ToUnixTimeMilliseconds();
-
-        /// <summary>One eccentric discharge: idle warm-up, then discharge; time from onset to the first asymmetry alarm.</summary>
-        public DetectionResult EccentricDischarge(double ratio)
-        {
-            _sun = _random.NextDouble() < 0.5;
-            _time.Now = _time.Now.AddHours(6 + (12 * _random.NextDouble()));
-            _massKg = (0.6 + (0.35 * _random.NextDouble())) * _model.CapacityKg;
-            Step(900, 0);
-            for (var i = 0; i < 900 && !(_watch.State == DischargeState.Idle && _lastAssessment?.StateChange is null); i++)
-            {
-                // A start-up transient of the inventory filter can read as a short fill: let it settle first.
-                Step(1, 0);
-            }
-
-            _ratio = ratio;
-            _directionDeg = 360 * _random.NextDouble();
-            var rate = -(15 + (25 * _random.NextDouble()));
-            var onset = NowMs;
-            _transitions.Clear();
-            _keepHistory = ratio == 0 || Environment.GetEnvironmentVariable("SW_DEBUG") is not null;
-            Step(600, rate);
-            var first = _transitions.FirstOrDefault(t => t.To == AlarmStateName.Unacknowledged && t.Condition.Contains("/asymmetry-a1/", StringComparison.Ordinal));
-            if (first is null)
-            {
-                if (Environment.GetEnvironmentVariable("SW_DEBUG") is not null)
+                var f = line.Split(',');
+                if (f[silo] != SiloId)
                 {
-                    foreach (var a in _history.Where((_, i) => i % 60 == 0))
-                    {
-                        Console.WriteLine($"      miss t {(a.TimestampMs - onset) / 1000} {a.State} " + string.Join(" | ", a.Rings.Select(r => $"{r.Ring} good {r.GoodGauges} A1 {r.A1Ratio:0.000} {r.Note}")));
-                    }
-
-                    foreach (var rd in _monitor.Readings.Where(x => x.Quality != Quality.Good))
-                    {
-                        Console.WriteLine($"      reading {rd.SensorId} {rd.Quality} {rd.QualityReason}");
-                    }
+                    continue;
                 }
 
-                return new DetectionResult(null, double.NaN);
+                rows.Add(new TruthLine(
+                    DateTimeOffset.Parse(f[time], CultureInfo.InvariantCulture),
+                    f[flow],
+                    f[channel].Length > 0 ? double.Parse(f[channel], CultureInfo.InvariantCulture) : null,
+                    double.Parse(f[ratio], CultureInfo.InvariantCulture)));
             }
 
-            var ring = _watch.Evaluate(NowMs, _monitor.Evaluate(NowMs)).Rings[0];
-            var err = Math.Abs(ring.AsymmetryDirectionDeg - _directionDeg) % 360;
-            var at = _history.FirstOrDefault(h => h.TimestampMs == first.TimestampMs);
-            var note = $"{first.AlarmId} at {(first.TimestampMs - onset) / 1000.0:0} s, value {first.Value:0.000}, sun {_sun}, {first.Message[^40..]}"
-                + (at is null ? "" : "; rings: " + string.Join(" | ", at.Rings.Select(r => $"{r.Ring} good {r.GoodGauges} A1 {r.A1Ratio:0.000} dA0 {(r.ChangeMicro.Count > 0 ? r.ChangeMicro[0].Amplitude : double.NaN):0.0} exp {r.ExpectedMeanMicro:0.0} dT1 {(r.TemperatureChangeK.Count > 1 ? r.TemperatureChangeK[1].Amplitude : double.NaN):0.00} {r.Note}")));
-            return new DetectionResult((first.TimestampMs - onset) / 1000.0, err > 180 ? 360 - err : err, note);
-        }
-
-        /// <summary>Days of ordinary operation: concentric discharges and fills; wall alarms counted as false.</summary>
-        public DaysResult Days(int days, bool sun)
-        {
-            _sun = sun;
-            _massKg = 0.7 * _model.CapacityKg;
-            var maxA1 = 0.0;
-            var wall = 0;
-            var others = new List<string>();
-            for (var d = 0; d < days; d++)
-            {
-                var dayStart = NowMs;
-                var plan = new List<(double StartH, double Rate, double Minutes)>
-                {
-                    (2 + _random.NextDouble(), 25, 0),
-                    (7 + (2 * _random.NextDouble()), -(15 + (25 * _random.NextDouble())), 15 + (10 * _random.NextDouble())),
-                    (10 + (2 * _random.NextDouble()), -(15 + (25 * _random.NextDouble())), 15 + (10 * _random.NextDouble())),
-                    (13 + (2 * _random.NextDouble()), 25, 0),
-                    (16 + (2 * _random.NextDouble()), -(15 + (25 * _random.NextDouble())), 15 + (10 * _random.NextDouble())),
-                    (19 + (2 * _random.NextDouble()), -(15 + (25 * _random.NextDouble())), 15 + (10 * _random.NextDouble())),
-                };
-                foreach (var (startH, rate, minutes) in plan)
-                {
-                    var startMs = dayStart + (long)(startH * 3_600_000);
-                    StepUntil(startMs, 0, ref maxA1);
-                    var seconds = rate > 0
-                        ? (int)Math.Max(0, ((0.9 * _model.CapacityKg) - _massKg) / rate)
-                        : (int)Math.Min(minutes * 60, Math.Max(0, (_massKg - (0.15 * _model.CapacityKg)) / -rate));
-                    StepUntil(NowMs + (seconds * 1000L), rate, ref maxA1);
-                }
-
-                StepUntil(dayStart + (24 * 3_600_000L), 0, ref maxA1);
-                foreach (var t in _transitions.Where(t => t.To == AlarmStateName.Unacknowledged))
-                {
-                    if (t.Condition.Contains("/asymmetry-", StringComparison.Ordinal) || t.Condition.Contains("/excess/", StringComparison.Ordinal))
-                    {
-                        wall++;
-                    }
-                    else
-                    {
-                        others.Add(t.AlarmId);
-                    }
-                }
-
-                _transitions.Clear();
-                foreach (var a in _engine.Active.Where(a => a.State is AlarmStateName.Latched or AlarmStateName.ReturnedToNormalUnacknowledged or AlarmStateName.Acknowledged))
-                {
-                    // The operator acknowledges and resets what the day left standing.
-                    _engine.Acknowledge(a.AlarmId, "bench");
-                    _engine.Reset(a.AlarmId, "bench");
-                }
-            }
-
-            return new DaysResult(days * 24.0, wall, others.Count, maxA1, others);
-        }
-
-        private void StepUntil(long untilMs, double rate, ref double maxA1)
-        {
-            while (NowMs < untilMs)
-            {
-                var a = StepOnce(rate);
-                foreach (var r in a.Rings)
-                {
-                    if (double.IsFinite(r.A1Ratio))
-                    {
-                        maxA1 = Math.Max(maxA1, r.A1Ratio);
-                    }
-                }
-            }
-        }
-
-        private void Step(int seconds, double rate)
-        {
-            for (var i = 0; i < seconds; i++)
-            {
-                StepOnce(rate);
-            }
-        }
-
-        private WallAssessment StepOnce(double rate)
-        {
-            _time.Now = _time.Now.AddSeconds(1);
-            var now = NowMs;
-            _rateKgPerS = rate;
-            _massKg = Math.Clamp(_massKg + rate, 0, _model.CapacityKg);
-            var discharging = rate < 0;
-            if (discharging && _dischargeStartMs == long.MinValue)
-            {
-                _dischargeStartMs = now;
-            }
-            else if (!discharging)
-            {
-                _dischargeStartMs = long.MinValue;
-            }
-
-            var state = _model.StateAtMass(_massKg, discharging ? FlowMode.Discharging : FlowMode.Filling);
-            _model.ExpectedStrains(state, _expected);
-            _model.SupportReactionsKn(state, _reactions);
-            Array.Clear(_ringMean);
-            var counts = new int[_ringMean.Length];
-            for (var g = 0; g < _expected.Length; g++)
-            {
-                _ringMean[_ringOfGauge[g]] += _expected[g];
-                counts[_ringOfGauge[g]]++;
-            }
-
-            for (var r = 0; r < _ringMean.Length; r++)
-            {
-                _ringMean[r] = Math.Abs(_ringMean[r] / counts[r]);
-            }
-
-            var ramp = discharging ? Math.Min(1.0, (now - _dischargeStartMs) / 10_000.0) : 0;
-            var ratio = discharging ? _ratio : 0;
-            Weather(now);
-
-            var hour = _time.Now.TimeOfDay.TotalHours;
-            var sunAz = 90 + (180 * Math.Clamp((hour - 6) / 12, 0, 1));
-            var sunK = _sun && hour is > 6 and < 18 ? 15 * Math.Sin(Math.PI * (hour - 6) / 12) * _cloud : 0;
-            var air = 14 + (5 * Math.Sin(Math.PI * (hour - 9) / 12));
-            var structureKn = Units.MassKgToWeightKn(_silo.Options.Weighing.StructureMassKg) / _reactions.Length;
-            var nu = _silo.Options.Geometry.WallPoissonRatio;
-            var sensors = _silo.Options.Sensors;
-            for (var i = 0; i < sensors.Count; i++)
-            {
-                var o = sensors[i];
-                double value;
-                if (o.Kind == SensorKind.LoadCell)
-                {
-                    value = LoadCellConversion.SignalMvPerV(structureKn + _reactions[o.Support - 1], o, air) + (2e-4 * Gaussian());
-                }
-                else if (_gaugeOf[i] is { } g)
-                {
-                    var t = GaugeTemperature(g.AngleDeg, air, sunK, sunAz);
-                    var sign = g.Kind == SensorKind.AxialStrain ? -1.0 : 1.0;
-                    var mean = _ringMean[_ringOfGauge[g.Index]];
-                    var wind = WindMicro(g, now);
-                    var micro = _expected[g.Index]
-                        + (sign * ramp * ratio * mean * Math.Cos((g.AngleDeg - _directionDeg) * Math.PI / 180))
-                        + wind
-                        + (_residual[g.Index] * (t - 20))
-                        + (o.ThermalOutputMicroPerK * (t - o.ReferenceTemperatureC))
-                        + (0.5 * Gaussian());
-                    value = BridgeEquations.MvPerVFromStrainMicro(o.Bridge, micro, o.GaugeFactor, nu);
-                }
-                else
-                {
-                    if (now / 1000 % 5 != 0)
-                    {
-                        continue;
-                    }
-
-                    var angle = double.Parse(o.Id.AsSpan(o.Id.LastIndexOf('-') + 1), CultureInfo.InvariantCulture);
-                    value = GaugeTemperature(angle, air, sunK, sunAz) + (0.05 * Gaussian());
-                }
-
-                _monitor.OnSample(new TelemetrySample(_silo.Index, i, now, value));
-            }
-
-            var inventory = _monitor.Evaluate(now);
-            _watch.Update(_monitor.Readings);
-            var assessment = _watch.Evaluate(now, inventory);
-            _lastAssessment = assessment;
-            if (_keepHistory)
-            {
-                _history.Add(assessment);
-            }
-
-            _transitions.AddRange(_engine.Evaluate(assessment.Conditions));
-            return assessment;
-        }
-
-        private static double GaugeTemperature(double angleDeg, double air, double sunK, double sunAz) =>
-            air + (sunK * Math.Max(0, Math.Cos((angleDeg - sunAz) * Math.PI / 180)));
-
-        private void Weather(long now)
-        {
-            // Passing clouds: the sunlit excess moves toward a new level over about five minutes.
-            if (_random.NextDouble() < 1.0 / 1200)
-            {
-                _cloudTarget = _random.NextDouble() < 0.5 ? 0.1 : 1.0;
-            }
-
-            _cloud += (_cloudTarget - _cloud) / 300;
-
-            // Gusts: about six an hour, 5–30 s, ovalisation up to 6 µε and bending up to 8 µε.
-            if (now > _gustEndMs && _random.NextDouble() < 6.0 / 3600)
-            {
-                _gustEndMs = now + (long)(5000 + (25000 * _random.NextDouble()));
-                _gustN2 = 6 * _random.NextDouble();
-                _gustN1 = 8 * _random.NextDouble();
-                _gustDirDeg = 360 * _random.NextDouble();
-            }
-        }
-
-        private double WindMicro(GaugeModel g, long now)
-        {
-            if (now > _gustEndMs)
-            {
-                return 0;
-            }
-
-            var a = (g.AngleDeg - _gustDirDeg) * Math.PI / 180;
-            var bending = g.Kind == SensorKind.AxialStrain ? _gustN1 * Math.Cos(a) : 0;
-            return (_gustN2 * Math.Cos(2 * a)) + bending;
-        }
-
-        private double Gaussian()
-        {
-            var u1 = 1.0 - _random.NextDouble();
-            var u2 = _random.NextDouble();
-            return Math.Sqrt(-2 * Math.Log(u1)) * Math.Cos(2 * Math.PI * u2);
+            return rows;
         }
     }
 }

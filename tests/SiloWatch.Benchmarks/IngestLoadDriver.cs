@@ -24,6 +24,7 @@ public static class IngestLoadDriver
     {
         var messages = args.Length > 0 ? int.Parse(args[0], CultureInfo.InvariantCulture) : 50_000;
         var perMessage = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 50;
+        var rounds = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 3;
         var mosquitto = new[] { "/usr/sbin/mosquitto", "/usr/bin/mosquitto" }.FirstOrDefault(File.Exists)
             ?? throw new InvalidOperationException("mosquitto is not installed (apt-get install mosquitto)");
         var folder = Directory.CreateTempSubdirectory("silowatch-load-").FullName;
@@ -39,14 +40,25 @@ public static class IngestLoadDriver
         try
         {
             var payloads = BuildPayloads(messages, perMessage);
-            Console.WriteLine($"{messages} messages of {perMessage} samples (~{payloads[0].Length} bytes) through mosquitto on 127.0.0.1:{port}, QoS 1");
+            Console.WriteLine($"{messages} messages of {perMessage} samples (~{payloads[0].Length} bytes) through mosquitto on 127.0.0.1:{port}, QoS 1, " +
+                $"{rounds} round(s) of bare subscriber then service; {Environment.ProcessorCount} cores, load average {LoadAverage()}");
+            Console.WriteLine("cpu: microseconds of CPU per message while streaming, in this process (publisher + consumer) and in mosquitto");
+            var ratios = new List<double>();
+            for (var round = 1; round <= rounds; round++)
+            {
+                Settle();
+                var bare = await MeasureBareAsync(port, payloads, round, new Meter(broker));
+                Settle();
+                var service = await MeasureServiceAsync(port, payloads, perMessage, folder, round, new Meter(broker));
+                ratios.Add(service.Rate / bare.Rate);
+                Console.WriteLine($"round {round}: bare {bare.Rate,8:N0} msg/s (cpu {bare.OwnCpuUs(messages),5:F1} us, mosquitto {bare.BrokerCpuUs(messages),5:F1} us) | " +
+                    $"service {service.Rate,8:N0} msg/s = {service.Rate * perMessage,9:N0} samples/s (cpu {service.OwnCpuUs(messages),5:F1} us, mosquitto {service.BrokerCpuUs(messages),5:F1} us) | " +
+                    $"ratio {service.Rate / bare.Rate:P1}");
+                Console.WriteLine($"         bare {bare.Gc(messages)} | service {service.Gc(messages)}");
+            }
 
-            var bare = await MeasureBareAsync(port, payloads);
-            Console.WriteLine($"bare MQTTnet subscriber: {bare:N0} msg/s ({bare * perMessage:N0} samples/s)");
-
-            var service = await MeasureServiceAsync(port, payloads, perMessage);
-            Console.WriteLine($"SiloWatch service:       {service:N0} msg/s ({service * perMessage:N0} samples/s)");
-            Console.WriteLine($"ratio service/bare:      {service / bare:P1}");
+            ratios.Sort();
+            Console.WriteLine($"ratio service/bare: median {ratios[ratios.Count / 2]:P1}, range {ratios[0]:P1} .. {ratios[^1]:P1} over {rounds} round(s); load average now {LoadAverage()}");
             return 0;
         }
         finally
@@ -55,6 +67,59 @@ public static class IngestLoadDriver
             Directory.Delete(folder, recursive: true);
         }
     }
+
+    private sealed record Phase(double Rate, TimeSpan OwnCpu, TimeSpan BrokerCpu, long AllocatedBytes, int Gen0, int Gen2, TimeSpan GcPause)
+    {
+        public string Gc(int messages) => string.Create(CultureInfo.InvariantCulture,
+            $"alloc {AllocatedBytes / (double)messages,6:N0} B/msg, gc0 {Gen0,3} gc2 {Gen2,2}, pause {GcPause.TotalMilliseconds,5:N0} ms");
+
+        public double OwnCpuUs(int messages) => OwnCpu.TotalMicroseconds / messages;
+
+        public double BrokerCpuUs(int messages) => BrokerCpu.TotalMicroseconds / messages;
+    }
+
+    /// <summary>CPU and GC counters from the start of publishing to the last message consumed.</summary>
+    private sealed class Meter(Process broker)
+    {
+        private TimeSpan _own;
+        private TimeSpan _broker;
+        private long _allocated;
+        private int _gen0;
+        private int _gen2;
+        private TimeSpan _pause;
+
+        public void Start()
+        {
+            var self = Process.GetCurrentProcess();
+            broker.Refresh();
+            (_own, _broker) = (self.TotalProcessorTime, broker.TotalProcessorTime);
+            (_allocated, _gen0, _gen2, _pause) = (GC.GetTotalAllocatedBytes(), GC.CollectionCount(0), GC.CollectionCount(2), GC.GetTotalPauseDuration());
+        }
+
+        public Phase Stop(double rate)
+        {
+            var self = Process.GetCurrentProcess();
+            broker.Refresh();
+            return new Phase(rate, self.TotalProcessorTime - _own, broker.TotalProcessorTime - _broker,
+                GC.GetTotalAllocatedBytes() - _allocated, GC.CollectionCount(0) - _gen0, GC.CollectionCount(2) - _gen2, GC.GetTotalPauseDuration() - _pause);
+        }
+    }
+
+    /// <summary>
+    /// Collects the garbage of the phase before (a disposed host leaves dynamic methods whose
+    /// finalizers otherwise keep the finalizer thread busy during the next phase).
+    /// </summary>
+    private static void Settle()
+    {
+        for (var i = 0; i < 3; i++)
+        {
+            GC.Collect();
+            GC.WaitForPendingFinalizers();
+        }
+    }
+
+    private static string LoadAverage() =>
+        File.Exists("/proc/loadavg") ? string.Join(' ', File.ReadAllText("/proc/loadavg").Split(' ').Take(3)) : "n/a";
 
     private static byte[][] BuildPayloads(int messages, int perMessage)
     {
@@ -80,7 +145,7 @@ public static class IngestLoadDriver
         return result;
     }
 
-    private static async Task<double> MeasureBareAsync(int port, byte[][] payloads)
+    private static async Task<Phase> MeasureBareAsync(int port, byte[][] payloads, int round, Meter meter)
     {
         var factory = new MqttClientFactory();
         using var subscriber = factory.CreateMqttClient();
@@ -101,22 +166,27 @@ public static class IngestLoadDriver
 
             return Task.CompletedTask;
         };
-        await subscriber.ConnectAsync(new MqttClientOptionsBuilder().WithTcpServer("127.0.0.1", port).WithClientId("bare-sub").Build());
+        await subscriber.ConnectAsync(new MqttClientOptionsBuilder().WithTcpServer("127.0.0.1", port).WithClientId($"bare-sub-{round}")
+            .WithCleanStart(false).WithSessionExpiryInterval(3600).Build()); // the service's session settings
         await subscriber.SubscribeAsync(factory.CreateSubscribeOptionsBuilder()
             .WithTopicFilter(f => f.WithTopic("silowatch/v1/telemetry/+/+").WithQualityOfServiceLevel(MqttQualityOfServiceLevel.AtLeastOnce)).Build());
-        await PublishAllAsync(port, payloads, "gw-bare");
+        meter.Start();
+        await PublishAllAsync(port, payloads, $"gw-bare-{round}");
         await done.Task.WaitAsync(TimeSpan.FromMinutes(5));
         var seconds = Stopwatch.GetElapsedTime(first).TotalSeconds;
+        var phase = meter.Stop((payloads.Length - 1) / seconds);
         await subscriber.DisconnectAsync();
-        return (payloads.Length - 1) / seconds;
+        await ForgetSessionAsync(port, $"bare-sub-{round}");
+        return phase;
     }
 
-    private static async Task<double> MeasureServiceAsync(int port, byte[][] payloads, int perMessage)
+    private static async Task<Phase> MeasureServiceAsync(int port, byte[][] payloads, int perMessage, string folder, int round, Meter meter)
     {
         var app = SiloWatchApp.Build([
-            "--Mqtt:Host=127.0.0.1", $"--Mqtt:Port={port}", "--Mqtt:ClientId=silowatch-load",
+            "--Mqtt:Host=127.0.0.1", $"--Mqtt:Port={port}", $"--Mqtt:ClientId=silowatch-load-{round}",
             "--Instance:Id=load-0", "--Instance:LogInterval=00:00:00", "--Demo:RunSimulator=false",
-            "--Decoder:MaxLateness=00:00:00", "--Health:Urls=http://127.0.0.1:0", "--Serilog:MinimumLevel:Default=Warning",
+            "--Decoder:MaxLateness=00:00:00", "--Health:Urls=http://127.0.0.1:0", "--Serilog:MinimumLevel:Default=Warning", "--Serilog:MinimumLevel:Override:Microsoft.Hosting.Lifetime=Warning",
+            $"--Storage:EmbeddedPath={Path.Combine(folder, $"series-{round}.db")}", $"--Storage:JournalPath={Path.Combine(folder, $"journal-{round}.db")}",
             $"--Instance:PlantFile={Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json")}",
             $"--Instance:MaterialsFile={Path.Combine(AppContext.BaseDirectory, "config", "materials.json")}"]);
         await app.StartAsync();
@@ -127,7 +197,8 @@ public static class IngestLoadDriver
             await Task.Delay(50);
         }
 
-        var publishing = PublishAllAsync(port, payloads, "gw-svc");
+        meter.Start();
+        var publishing = PublishAllAsync(port, payloads, $"gw-svc-{round}");
         while (counters.Messages == 0)
         {
             await Task.Delay(1);
@@ -141,6 +212,7 @@ public static class IngestLoadDriver
         }
 
         var seconds = Stopwatch.GetElapsedTime(first).TotalSeconds;
+        var phase = meter.Stop((counters.Samples / (double)perMessage - 1) / seconds);
         await publishing;
         if (counters.RejectedTotal > 0)
         {
@@ -149,7 +221,8 @@ public static class IngestLoadDriver
 
         await app.StopAsync();
         await app.DisposeAsync();
-        return (counters.Samples / (double)perMessage - 1) / seconds;
+        await ForgetSessionAsync(port, $"silowatch-load-{round}");
+        return phase;
     }
 
     private static async Task PublishAllAsync(int port, byte[][] payloads, string clientId)
@@ -171,6 +244,78 @@ public static class IngestLoadDriver
 
         await Task.WhenAll(inFlight);
         await publisher.DisconnectAsync();
+    }
+
+    /// <summary>
+    /// Ends a persistent session on the broker (clean start, no expiry), so that a later round does
+    /// not make the broker queue every message for a subscriber that is gone.
+    /// </summary>
+    private static async Task ForgetSessionAsync(int port, string clientId)
+    {
+        using var client = new MqttClientFactory().CreateMqttClient();
+        await client.ConnectAsync(new MqttClientOptionsBuilder().WithTcpServer("127.0.0.1", port).WithClientId(clientId)
+            .WithCleanStart(true).WithSessionExpiryInterval(0).Build());
+        await client.DisconnectAsync();
+    }
+
+    /// <summary>
+    /// The consumer's own cost per message without the network: the service's pipeline of silo S1
+    /// (decode, monitor, wall watch, alarms, sink through the downsampler into the embedded store)
+    /// fed the load driver's payloads on this thread. Usage: ingest-path [messages] [samplesPerMessage] [repeats].
+    /// The best of the repeats is printed beside the median: the best is the least disturbed by other load.
+    /// </summary>
+    public static async Task<int> RunPathAsync(string[] args)
+    {
+        var messages = args.Length > 0 ? int.Parse(args[0], CultureInfo.InvariantCulture) : 20_000;
+        var perMessage = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 50;
+        var repeats = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 5;
+        var folder = Directory.CreateTempSubdirectory("silowatch-path-").FullName;
+        try
+        {
+            var payloads = BuildPayloads(messages, perMessage);
+            var results = new List<(double Us, double Bytes)>();
+            for (var r = 0; r < repeats; r++)
+            {
+                var app = SiloWatchApp.Build([
+                    "--Mqtt:Host=127.0.0.1", "--Mqtt:Port=1", "--Instance:Id=path-0", "--Instance:LogInterval=00:00:00",
+                    "--Demo:RunSimulator=false", "--Decoder:MaxLateness=00:00:00", "--Health:Urls=http://127.0.0.1:0",
+                    "--Serilog:MinimumLevel:Default=Warning",
+                    $"--Storage:EmbeddedPath={Path.Combine(folder, $"series-{r}.db")}", $"--Storage:JournalPath={Path.Combine(folder, $"journal-{r}.db")}",
+                    $"--Instance:PlantFile={Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json")}",
+                    $"--Instance:MaterialsFile={Path.Combine(AppContext.BaseDirectory, "config", "materials.json")}"]);
+                var ingest = app.Services.GetRequiredService<TelemetryIngest>();
+                var pipeline = ingest.Pipelines.First(p => p.Silo.Key == "brackenford/S1");
+                var now = DateTimeOffset.UtcNow.ToUnixTimeMilliseconds();
+                var allocated = GC.GetAllocatedBytesForCurrentThread();
+                var started = Stopwatch.GetTimestamp();
+                foreach (var payload in payloads)
+                {
+                    pipeline.Process(payload, now);
+                }
+
+                var elapsed = Stopwatch.GetElapsedTime(started);
+                var bytes = GC.GetAllocatedBytesForCurrentThread() - allocated;
+                if (pipeline.SamplesAccepted != (long)messages * perMessage)
+                {
+                    throw new InvalidOperationException($"only {pipeline.SamplesAccepted} of {messages * perMessage} samples accepted");
+                }
+
+                results.Add((elapsed.TotalMicroseconds / messages, bytes / (double)messages));
+                await app.DisposeAsync();
+            }
+
+            var best = results.MinBy(x => x.Us);
+            var median = results.OrderBy(x => x.Us).ElementAt(results.Count / 2);
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
+                $"ingest-path: {messages} messages of {perMessage} samples through the S1 pipeline on one thread, {repeats} repeats; load average {LoadAverage()}"));
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
+                $"per message: best {best.Us:F1} us ({best.Us * 1000 / perMessage:F0} ns per sample), median {median.Us:F1} us; allocated {best.Bytes:F0} B per message"));
+            return 0;
+        }
+        finally
+        {
+            Directory.Delete(folder, recursive: true);
+        }
     }
 
     private static int FreePort()

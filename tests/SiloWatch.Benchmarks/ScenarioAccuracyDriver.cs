@@ -15,6 +15,9 @@ namespace SiloWatch.Benchmarks;
 /// </summary>
 public static class ScenarioAccuracyDriver
 {
+    /// <summary>Set SILOWATCH_TRACE_SCENARIO to a silo id to print each of its evaluations (diagnosis).</summary>
+    private static readonly string? Trace = Environment.GetEnvironmentVariable("SILOWATCH_TRACE_SCENARIO");
+
     public static int Run(string[] args)
     {
         var root = FindRepositoryRoot();
@@ -85,7 +88,13 @@ public static class ScenarioAccuracyDriver
             {
                 if (silos.TryGetValue(truth.Site + "/" + truth.Silo, out var tracked))
                 {
-                    tracked.Score(tracked.Monitor.Evaluate(tick.Time.ToUnixTimeMilliseconds()), truth.MassKg);
+                    var estimate = tracked.Monitor.Evaluate(tick.Time.ToUnixTimeMilliseconds());
+                    tracked.Score(estimate, truth.MassKg);
+                    if (Trace == tracked.Silo.SiloId)
+                    {
+                        Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
+                            $"{tick.Time:HH:mm:ss} {tracked.Silo.SiloId} truth {truth.MassKg,10:0} est {estimate.MassKg,10:0} [{estimate.MassLow95Kg,10:0}, {estimate.MassHigh95Kg,10:0}] {estimate.Quality} {estimate.QualityReason}"));
+                    }
                 }
             }
         }
@@ -97,7 +106,7 @@ public static class ScenarioAccuracyDriver
         }
     }
 
-    private static string FindRepositoryRoot()
+    internal static string FindRepositoryRoot()
     {
         var dir = new DirectoryInfo(AppContext.BaseDirectory);
         while (dir is not null && !File.Exists(Path.Combine(dir.FullName, "SiloWatch.sln")))

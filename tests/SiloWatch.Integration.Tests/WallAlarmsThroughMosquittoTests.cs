@@ -4,6 +4,7 @@ using System.Text.RegularExpressions;
 using SiloWatch.Integration.Tests.Support;
 using SiloWatch.Monitoring.Alarms;
 using SiloWatch.Monitoring.Wall;
+using SiloWatch.Simulator;
 using Xunit.Abstractions;
 
 namespace SiloWatch.Integration.Tests;
@@ -33,14 +34,20 @@ public sealed partial class WallAlarmsThroughMosquittoTests(ITestOutputHelper ou
             return;
         }
 
-        // The demo plant's A1/A0 limit (0.35) is a placeholder above what this simulated side-outlet discharge
-        // produces (a peak near 0.13 on S1); the test sets 0.10 on S1 and on S2, whose central discharge stays
-        // lower (near 0.08), so one must raise the alarm and the other must not.
-        var plant = SimulatedPlant.PlantWithLimits(("S1", "AsymmetryRatioA1", 0.10), ("S2", "AsymmetryRatioA1", 0.10));
+        // The simulator's ground truth of the same scenario and seed as the run below (deterministic per seed).
+        var truth = GroundTruth("eccentric-discharge.json", seed: 7);
+        var channel = truth.First(t => t.Silo == "S1" && t.ChannelAzimuthDeg is not null).ChannelAzimuthDeg!.Value;
+        var s1Peak = truth.Where(t => t.Silo == "S1").Max(t => t.WallA1Ratio);
+        var setpoint = DemoLimit("S1");
+        output.WriteLine($"truth: S1 flow channel at {channel:0} deg, peak A1/A0 {s1Peak:0.000}; demo plant setpoint {setpoint}");
+        Assert.True(s1Peak > setpoint, $"the scenario's own truth ({s1Peak:0.000}) must exceed the demo plant's placeholder ({setpoint})");
+        Assert.All(truth.Where(t => t.Silo == "S2"), t => Assert.Equal(0, t.WallA1Ratio));
+
+        // The demo plant as it is, with its own (placeholder) limits.
         var instance = Instance("ecc");
-        await using var service = await ServiceUnderTest.StartAsync(broker.Port, instance, [.. Replay, ("Instance:PlantFile", plant)]);
+        await using var service = await ServiceUnderTest.StartAsync(broker.Port, instance, Replay);
         await using var observer = await TestMqtt.ConnectAsync(broker.Port, "obs-" + instance, "silowatch/v1/events/#", "silowatch/v1/alarms/#");
-        await using (SimulatedPlant.Start(broker.Port, "eccentric-discharge.json", speed: 100, plantPath: plant))
+        await using (SimulatedPlant.Start(broker.Port, "eccentric-discharge.json", speed: 100))
         {
             try
             {
@@ -61,15 +68,15 @@ public sealed partial class WallAlarmsThroughMosquittoTests(ITestOutputHelper ou
             }
         }
 
-        Dump(observer);
         var raised = Transitions(observer).First(t => IsAsymmetry(t, "S1") && t.To == "unacknowledged");
         output.WriteLine(raised.Message);
 
-        // The scenario's flow channel of S1 is at 120 deg. Inside the channel the wall pressure falls and beside it
-        // it rises (DOMAIN.md §2, p_hae = 2·p_hf − p_hce [M]): the first harmonic of the load rise points away
-        // from the channel, toward about 300 deg. The ratio is judged against the plant's A1/A0 limit.
+        // Inside the channel the wall load falls and beside it it rises (DOMAIN.md §2 and §4, p_hae = 2·p_hf − p_hce [M]):
+        // the first harmonic of the load rise points away from the channel. Tolerance 30°: half the 60° gauge spacing
+        // of S1's rings, far above the few degrees the detection benchmark measures.
         var direction = DirectionOf(raised.Message);
-        Assert.True(AngleBetween(direction, 300) <= 40, $"asymmetry direction {direction:0} deg, expected about 300 deg: {raised.Message}");
+        Assert.True(AngleBetween(direction, channel + 180) <= 30, $"asymmetry direction {direction:0} deg, expected {channel + 180:0} ± 30 deg: {raised.Message}");
+        Assert.Equal(setpoint, raised.Setpoint);
         Assert.True(raised.Value >= raised.Setpoint, $"value {raised.Value} below the setpoint {raised.Setpoint}");
         Assert.Contains("Never enter the silo", raised.Message, StringComparison.Ordinal);
 
@@ -83,11 +90,11 @@ public sealed partial class WallAlarmsThroughMosquittoTests(ITestOutputHelper ou
         // The discharge was seen as one: S1 left idle for discharging, with an event on its topic.
         Assert.Contains(observer.Received, m => m.Topic == $"silowatch/v1/events/{Site}/S1" && m.Payload.Contains("\"to\":\"discharging\"", StringComparison.Ordinal));
 
-        // S2 discharged centrally under the same limit: no asymmetry alarm; its discharge record was journaled.
+        // S2 discharged centrally under its own demo limit: no asymmetry alarm; its discharge record was journaled.
         Assert.DoesNotContain(Transitions(observer), t => IsAsymmetry(t, "S2") && t.To == "unacknowledged");
         var s2Event = Assert.Single(service.Journal.QueryEvents(Site, "S2", 0, long.MaxValue), e => !e.InProgress && e.MassOutKg > 10_000);
         Assert.InRange(s2Event.MassOutKg, 30_000, 50_000); // the scenario takes 40 t out of S2
-        Assert.True(s2Event.MaxAsymmetryRatio < 0.10, $"S2 peak A1/A0 {s2Event.MaxAsymmetryRatio}");
+        Assert.True(s2Event.MaxAsymmetryRatio < DemoLimit("S2"), $"S2 peak A1/A0 {s2Event.MaxAsymmetryRatio}");
     }
 
     [Fact]
@@ -128,6 +135,41 @@ public sealed partial class WallAlarmsThroughMosquittoTests(ITestOutputHelper ou
         Assert.DoesNotContain(Events(observer), e => e.GetProperty("type").GetString() == "discharge-state"
             && e.GetProperty("to").GetString() is "filling" or "discharging"
             && e.GetProperty("ts").GetDateTimeOffset() > startUpEnd);
+    }
+
+    [Fact]
+    public async Task ASilentPlantFloodsItsSiteOnceAcrossAllItsSilos()
+    {
+        await using var broker = await MosquittoServer.StartOrNullAsync();
+        if (broker is null)
+        {
+            return;
+        }
+
+        // No telemetry at all: every sensor of every silo goes stale and raises its sensor-bad alarm (after 1 s here),
+        // far more than 10 alarms in 10 minutes on the site (ISA-18.2 flood [M]), spread over four silos' workers.
+        var instance = Instance("flood");
+        await using var observer = await TestMqtt.ConnectAsync(broker.Port, "obs-" + instance, "silowatch/v1/events/#");
+        await using var service = await ServiceUnderTest.StartAsync(broker.Port, instance, ("Alarms:Definitions:SensorBadDelay", "00:00:01"));
+        var sensors = service.Ingest.Pipelines.Sum(p => p.Silo.Options.Sensors.Count);
+        var raised = () => service.Journal.QueryAlarmHistory(Site, null, 0, long.MaxValue).Where(h => h.ToState == "unacknowledged").ToList();
+        await TestMqtt.WaitForAsync(() => raised().Count(h => h.AlarmId.Contains("/sensor-bad-", StringComparison.Ordinal)) >= sensors,
+            $"a sensor-bad alarm for each of the {sensors} sensors", TimeSpan.FromSeconds(40));
+        var floodId = ConditionKeys.Flood(Site);
+        await TestMqtt.WaitForAsync(() => Transitions(observer).Any(t => t.Alarm == floodId), "the flood summary on an events topic");
+        await Task.Delay(TimeSpan.FromSeconds(1)); // any second summary would have arrived by now
+
+        // Journaled once and published once for the whole site, not once per silo.
+        Assert.Single(raised(), h => h.AlarmId == floodId);
+        var published = Transitions(observer);
+        var flood = Assert.Single(published, t => t.Alarm == floodId);
+        Assert.Equal(("normal", "unacknowledged"), (flood.From, flood.To));
+        Assert.Contains("Alarm flood", flood.Message, StringComparison.Ordinal);
+
+        // The first 10 activations of the site are announced; every later one is journaled but not published.
+        Assert.Equal(10, published.Count(t => t.To == "unacknowledged" && t.Alarm != floodId));
+        Assert.True(raised().Count > 11, $"{raised().Count} activations journaled");
+        Assert.Equal(service.Ingest.Pipelines.Count(), raised().Where(h => h.AlarmId != floodId).Select(h => h.SiloId).Distinct().Count());
     }
 
     [Fact]
@@ -238,6 +280,26 @@ public sealed partial class WallAlarmsThroughMosquittoTests(ITestOutputHelper ou
         {
             output.WriteLine(m.Payload.Length > 400 ? m.Payload[..400] : m.Payload);
         }
+    }
+
+    /// <summary>The ground-truth rows the simulator computes for a scenario, stepped here without a broker.</summary>
+    private static List<SiloWatch.Simulator.Model.TruthRow> GroundTruth(string scenario, int seed)
+    {
+        var options = new SimulatorRunOptions
+        {
+            PlantPath = Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json"),
+            MaterialsPath = Path.Combine(AppContext.BaseDirectory, "config", "materials.json"),
+            ScenarioPath = Path.Combine(AppContext.BaseDirectory, "scenarios", scenario),
+            Speed = 100,
+            Seed = seed,
+        };
+        return [.. SimulatorRunner.CreateModel(options, DateTimeOffset.UtcNow).Run().SelectMany(t => t.Truth)];
+    }
+
+    private static double DemoLimit(string silo)
+    {
+        var (plant, _) = SiloWatch.Plant.PlantLoader.LoadFile(Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json"));
+        return plant.Sites.SelectMany(s => s.Silos).Single(s => s.Id == silo).AlarmLimits.AsymmetryRatioA1;
     }
 
     private static string Instance(string what) => $"it-{what}-{Guid.NewGuid():N}"[..16];

@@ -45,6 +45,41 @@ public sealed class HopperLoadsTests
         }
     }
 
+    [Theory]
+    [InlineData(HopperShape.Conical, 30.0, 0.38)]
+    [InlineData(HopperShape.Pyramidal, 25.0, 0.45)]
+    [InlineData(HopperShape.Wedge, 15.0, 0.30)]
+    public void TheExponentFollowsEn1991Part4ForConesAndPyramidsAndTheSliceStaticsForWedges(HopperShape shape, double betaDeg, double mu)
+    {
+        // EN 1991-4:2006 §6.3.2 [M: from memory, as DOMAIN.md §1 gives it]: n = S·(F·μ_h·cotβ + F) − 2, S = 2 for cones and
+        // square pyramids, S = 1 for wedges. Slice statics [D]: n = S·(F·μ_h·cotβ + F − 1), the form the test above checks
+        // against an integration of the equilibrium.
+        var t = Math.Tan(betaDeg * Math.PI / 180);
+        var f = HopperLoads.FillingF(t, mu);
+        var s = HopperLoads.ShapeFactorS(shape);
+        var standard = (s * ((f * mu / t) + f)) - 2;
+        var statics = HopperLoads.PowerN(s, f, mu, t);
+
+        Assert.Equal(standard, HopperLoads.PowerN(s, f, mu, t, HopperExponentRule.En1991Part4), 12);
+        Assert.Equal(shape == HopperShape.Wedge ? standard + 1 : standard, statics, 12);
+    }
+
+    [Fact]
+    public void AWedgeHopperUsesTheStandardsExponentOnlyWhenTheFactorsAskForIt()
+    {
+        // Wedge β = 20°, wheat on D2: n(statics) − n(EN 1991-4 as written) = 1, and the standard's form carries more of the
+        // transition stress down the hopper: higher (conservative) vertical stress at mid-height.
+        var silo = TestSilos.Rectangular(3, 6, 12, HopperShape.Wedge, 20, 0.4);
+        var statics = SiloModel.Create(silo, TestSilos.Wheat());
+        var standard = SiloModel.Create(silo, TestSilos.Wheat(), new SiloModelOptions { Factors = new LoadFactors { HopperExponent = HopperExponentRule.En1991Part4 } });
+        Assert.Equal(HopperExponentRule.SliceStatics, LoadFactors.Default.HopperExponent);
+        Assert.Equal(1.0, statics.HopperN - standard.HopperN, 12);
+
+        var full = statics.StateAtLevel(statics.Geometry.MaxLevelM);
+        var mid = 0.5 * statics.Geometry.HopperHeightM;
+        Assert.True(standard.HopperAt(standard.StateAtLevel(standard.Geometry.MaxLevelM), mid).VerticalKPa > statics.HopperAt(full, mid).VerticalKPa);
+    }
+
     [Fact]
     public void TheSiloModelsHopperStressesContinueFromTheTransitionLoadAsTheSliceEquilibriumSays()
     {

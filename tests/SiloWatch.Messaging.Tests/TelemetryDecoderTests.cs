@@ -377,4 +377,25 @@ public sealed class TelemetryDecoderTests
 
     private static string Message(string pub, long seq) =>
         $$"""{"pub":"{{pub}}","seq":{{seq}},"ts":{{ExampleMs}},"sensor":"LC1","value":1,"unit":"mV/V"}""";
+
+    [Fact]
+    public void SequencePositionsRestoredInANewDecoderRecogniseARedeliveryAsADuplicate()
+    {
+        Decode($$"""{"pub":"gw-east-1","seq":1,"ts":{{ExampleMs}},"sensor":"LC1","value":1,"unit":"mV/V"}""");
+        Decode($$"""{"pub":"gw-east-1","seq":2,"ts":{{ExampleMs}},"sensor":"LC1","value":1,"unit":"mV/V"}""");
+        Decode($$"""{"pub":"gw-east-1","seq":4,"ts":{{ExampleMs}},"sensor":"LC1","value":1,"unit":"mV/V"}""");
+        var saved = _decoder.CaptureSequences();
+
+        var restarted = new TelemetryDecoder(DemoPlant.S1, new TelemetryDecoderOptions());
+        restarted.RestoreSequences(saved);
+        var receiver = new CollectingReceiver();
+        DecodeOutcome Again(long seq) => restarted.Decode(
+            Encoding.UTF8.GetBytes($$"""{"pub":"gw-east-1","seq":{{seq}},"ts":{{ExampleMs}},"sensor":"LC1","value":1,"unit":"mV/V"}"""), NowMs, receiver);
+
+        Assert.Equal(SequenceStatus.Duplicate, Again(2).Sequence);
+        Assert.Equal(SequenceStatus.LateFill, Again(3).Sequence);
+        Assert.Equal(SequenceStatus.InOrder, Again(5).Sequence);
+        Assert.Equal(2, receiver.Samples.Count);
+        Assert.Equal(RejectReason.DuplicateMessage, Assert.Single(receiver.Rejections).Reason);
+    }
 }

@@ -95,4 +95,81 @@ public sealed class FloorWeighingTests
         var f = floorOnly.Evaluate(t2);
         Assert.True(e.MassHigh95Kg - e.MassLow95Kg < 0.5 * (f.MassHigh95Kg - f.MassLow95Kg), "the ring must tighten the interval");
     }
+
+    [Fact]
+    public void AnUntaredBaseRingIsStillFusedWithItsInstalledZeroAndTheReasonSaysSo()
+    {
+        // The demo's state: nobody commanded a tare. The gauges read the wall's strain since the silo
+        // was empty (their configured no-load output is the zero), so the ring can carry the wall share.
+        var (monitor, time, silo, model) = DemoPlant.Monitor("C1", new MonitoringOptions { FuseUntaredRing = true });
+        var source = new SignalSource(silo, model);
+        var mass = 0.6 * model.CapacityKg;
+
+        var t = source.Run(monitor, time.GetUtcNow().ToUnixTimeMilliseconds(), 60, _ => mass);
+        var e = monitor.Evaluate(t);
+
+        Assert.Equal("floor+wall-rings", e.Method);
+        Assert.DoesNotContain("wall ring unavailable", e.QualityReason, StringComparison.Ordinal);
+        Assert.Contains("wall ring not tared", e.QualityReason, StringComparison.Ordinal);
+        Assert.True(Math.Abs(e.MassKg - mass) < 0.01 * model.CapacityKg, $"error {e.MassKg - mass:0} kg, {e.QualityReason}");
+        Assert.InRange(mass, e.MassLow95Kg, e.MassHigh95Kg);
+        Assert.False(double.IsNaN(monitor.LastWallLoadKn));
+    }
+
+    [Fact]
+    public void AGaugesConfiguredNoLoadOutputIsItsZeroBeforeATare()
+    {
+        // Every ring gauge given a no-load output of 0.02 mV/V in its definition and in its signal: the
+        // untared estimate must not change (20 microstrain on a full bridge with GF 2 would be about 4000 kN).
+        var mass = 0.5 * DemoPlant.Model("C1").CapacityKg;
+        var plain = Untared(mass, zeroOffsetMvPerV: 0);
+        var offset = Untared(mass, zeroOffsetMvPerV: 0.02);
+
+        Assert.Equal(plain.MassKg, offset.MassKg, 0.002 * mass);
+
+        static InventoryEstimate Untared(double mass, double zeroOffsetMvPerV)
+        {
+            // A fresh copy of the demo plant, so the shared one stays as it is.
+            var (plant, _) = Plant.PlantLoader.LoadFile(Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json"), DemoPlant.Materials.Names);
+            var withOffset = new Plant.PlantRegistry(plant).Silos.Single(s => s.SiloId == "C1");
+            var options = withOffset.Options;
+            foreach (var g in options.Sensors.Where(s => s.Kind == Plant.SensorKind.AxialStrain))
+            {
+                g.ZeroOffsetMvPerV = zeroOffsetMvPerV;
+            }
+
+            var model = DemoPlant.Model("C1");
+            var monitor = new SiloMonitor(withOffset, model, new MonitoringOptions { FuseUntaredRing = true }, new Microsoft.Extensions.Time.Testing.FakeTimeProvider(DemoPlant.Start));
+            var source = new SignalSource(withOffset, model);
+            foreach (var g in options.Sensors.Where(s => s.Kind == Plant.SensorKind.AxialStrain))
+            {
+                source.OffsetMvPerV[g.Id] = zeroOffsetMvPerV;
+            }
+
+            var t = source.Run(monitor, DemoPlant.Start.ToUnixTimeMilliseconds(), 60, _ => mass);
+            return monitor.Evaluate(t);
+        }
+    }
+
+    [Fact]
+    public void ByDefaultAnUntaredRingIsLeftOutAndTheReasonSaysWhy()
+    {
+        var (monitor, time, silo, model) = DemoPlant.Monitor("C1");
+        var source = new SignalSource(silo, model);
+        var t = source.Run(monitor, time.GetUtcNow().ToUnixTimeMilliseconds(), 60, _ => 0.6 * model.CapacityKg);
+        var e = monitor.Evaluate(t);
+
+        Assert.Equal("floor-janssen", e.Method);
+        Assert.Contains("wall ring unavailable: floor load only", e.QualityReason, StringComparison.Ordinal);
+        Assert.Contains("wall ring not tared", e.QualityReason, StringComparison.Ordinal);
+        Assert.True(double.IsNaN(monitor.LastWallLoadKn));
+
+        // A tare when empty (here: the same monitor tared at no load) lets the ring in.
+        var (tared, time2, _, _) = DemoPlant.Monitor("C1");
+        var source2 = new SignalSource(silo, model);
+        var t2 = source2.Run(tared, time2.GetUtcNow().ToUnixTimeMilliseconds(), 20, _ => 0);
+        tared.Tare("commissioning", t2);
+        t2 = source2.Run(tared, t2 + 1000, 60, _ => 0.6 * model.CapacityKg);
+        Assert.Equal("floor+wall-rings", tared.Evaluate(t2).Method);
+    }
 }

@@ -43,6 +43,27 @@ public sealed class PlantDefinitionTests
     }
 
     [Fact]
+    public void AnOutletSignalIsAZeroOrOneStateWithoutTemperatureCompensation()
+    {
+        var (plant, _) = PlantLoader.LoadFile(DemoPath);
+        var c1 = plant.Sites[0].Silos.Single(s => s.Id == "C1");
+        var feeder = c1.Sensors.Single(s => s.Kind == SensorKind.Outlet);
+        Assert.Equal(("FD1", "state", 0.0, 1.0), (feeder.Id, feeder.Unit, feeder.RangeMin, feeder.RangeMax));
+        Assert.Equal(["state"], PlantValidator.AllowedUnits(SensorKind.Outlet));
+
+        feeder.Unit = "mV/V";
+        feeder.RangeMax = 24;
+        feeder.TemperatureSensor = "T-R1-000";
+        var findings = PlantValidator.Validate(plant);
+
+        Assert.Equal(3, findings.Count);
+        Assert.All(findings, f => Assert.Equal(("C1", "FD1"), (f.Silo, f.Sensor)));
+        Assert.Contains(findings, f => f.Key.EndsWith(":Unit", StringComparison.Ordinal) && f.Value == "mV/V");
+        Assert.Contains(findings, f => f.Key.EndsWith(":RangeMin/RangeMax", StringComparison.Ordinal) && f.Value == "0..24");
+        Assert.Contains(findings, f => f.Key.EndsWith(":TemperatureSensor", StringComparison.Ordinal));
+    }
+
+    [Fact]
     public void AnUnknownMaterialIsReportedWhenTheLibraryIsGiven()
     {
         var (plant, _) = PlantLoader.LoadFile(DemoPath);

@@ -65,7 +65,7 @@ public sealed class BrokerPublishTests(ITestOutputHelper output)
                     Assert.All(root.GetProperty("samples").EnumerateArray(), s =>
                     {
                         Assert.False(string.IsNullOrEmpty(s.GetProperty("sensor").GetString()));
-                        Assert.Contains(s.GetProperty("unit").GetString(), new[] { "mV/V", "degC" });
+                        Assert.Contains(s.GetProperty("unit").GetString(), new[] { "mV/V", "degC", "state" });
                         Assert.Equal(JsonValueKind.Number, s.GetProperty("value").ValueKind);
                     });
                 }

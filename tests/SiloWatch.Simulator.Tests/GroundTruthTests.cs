@@ -82,12 +82,12 @@ public sealed class GroundTruthTests
         using var text = new StringWriter();
         using (var w = new TruthCsvWriter(text))
         {
-            w.Write(new TruthRow(new DateTimeOffset(2026, 6, 21, 9, 0, 0, TimeSpan.Zero), "brackenford", "S1", 1234.56, 5.4321, 0.01, 90, FlowState.Discharging, -40, 120, 500, 300, "LC2:Dead", "outage"));
+            w.Write(new TruthRow(new DateTimeOffset(2026, 6, 21, 9, 0, 0, TimeSpan.Zero), "brackenford", "S1", 1234.56, 5.4321, 0.01, 90, FlowState.Discharging, -40, 120, 500, 300, "LC2:Dead", "outage") { WallA1Ratio = 0.12345 });
         }
 
         var lines = text.ToString().Split('\n', StringSplitOptions.RemoveEmptyEntries);
         Assert.Equal(TruthCsvWriter.Header, lines[0]);
-        Assert.Equal("2026-06-21T09:00:00.000Z,brackenford,S1,1234.6,5.432,0.0100,90.0,discharging,-40.00,120.0,500.00,300.00,LC2:Dead,outage", lines[1]);
+        Assert.Equal("2026-06-21T09:00:00.000Z,brackenford,S1,1234.6,5.432,0.0100,90.0,discharging,-40.00,120.0,0.1235,500.00,300.00,LC2:Dead,outage", lines[1]);
     }
 
     [Fact]

@@ -1,3 +1,4 @@
+using SiloWatch.Plant;
 using System.Globalization;
 using System.Text.Json;
 using SiloWatch.Simulator.Scenarios;
@@ -63,6 +64,13 @@ public sealed class MessageContractTests
             foreach (var s in m.Samples)
             {
                 var sensor = silos[m.Silo].Sensors.Single(x => x.Id == s.Sensor);
+                if (sensor.Kind == SensorKind.Outlet)
+                {
+                    // A contact: exactly one end of its range or the other.
+                    Assert.True(s.Value == sensor.RangeMin || s.Value == sensor.RangeMax, $"{m.Silo}/{s.Sensor} = {s.Value}");
+                    continue;
+                }
+
                 // Strictly inside: a value at a limit would mean the transmitter saturated, i.e. the physics overshot.
                 Assert.True(s.Value > sensor.RangeMin && s.Value < sensor.RangeMax, $"{m.Silo}/{s.Sensor} = {s.Value} outside {sensor.RangeMin}..{sensor.RangeMax}");
             }

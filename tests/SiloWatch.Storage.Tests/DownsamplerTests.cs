@@ -85,6 +85,8 @@ public sealed class DownsamplerTests
         _time.Advance(TimeSpan.FromSeconds(1));
         Assert.Empty(_inner.Points);
         _time.Advance(TimeSpan.FromSeconds(1.5));
+        Assert.Empty(_inner.Points); // silent for 2.5 s, but the last point may have come up to a tick after the one it records
+        _time.Advance(TimeSpan.FromSeconds(0.5));
         var first = Assert.Single(_inner.Points);
         Assert.Equal(5_000, first.TimestampMs);
         Assert.Equal(20, first.Fields["value"], 12);
@@ -152,5 +154,62 @@ public sealed class DownsamplerTests
 
         Assert.Single(_inner.Points);
         Assert.True(_inner.Disposed);
+    }
+
+    [Fact]
+    public async Task FlushingWhatWasStoredLeavesTheOpenIntervalOpen()
+    {
+        await using var sink = Create();
+        var s = Sensor();
+        sink.Write(s, 1_000, [1, 10, 0]);
+        sink.Write(s, 2_000, [3, 30, 0]); // closes second 1
+
+        await ((ITimeSeriesSink)sink).FlushStoredAsync(CancellationToken.None);
+
+        var point = Assert.Single(_inner.Points);
+        Assert.Equal(1_000, point.TimestampMs);
+        Assert.Equal(1, _inner.Flushes);
+    }
+
+    [Fact]
+    public async Task AnIntervalRestoredFromACheckpointIsCompletedWithThePointsBeforeAndAfterIt()
+    {
+        var s = Sensor();
+        OpenInterval saved;
+        await using (var before = Create())
+        {
+            before.Write(s, 7_100, [1, 10, 0]);
+            before.Write(s, 7_200, [2, 20, 1]);
+            saved = before.CaptureInterval(s)!;
+        }
+
+        // A new process: the same series key again, a new downsampler, the interval restored, then the rest of the second.
+        var inner = new CollectingSink();
+        await using var after = new Downsampler(inner, new StorageOptions().Downsampling, _time, new TestLogger<Downsampler>());
+        var json = new System.Text.Json.JsonSerializerOptions { NumberHandling = System.Text.Json.Serialization.JsonNumberHandling.AllowNamedFloatingPointLiterals };
+        after.RestoreInterval(s, System.Text.Json.JsonSerializer.Deserialize<OpenInterval>(System.Text.Json.JsonSerializer.Serialize(saved, json), json)!);
+        after.Write(s, 7_900, [6, 60, 0]);
+        after.Write(s, 8_000, [0, 0, 0]);
+
+        var point = Assert.Single(inner.Points);
+        Assert.Equal(7_000, point.TimestampMs);
+        Assert.Equal(3, point.Fields["raw"], 12);
+        Assert.Equal(30, point.Fields["value"], 12);
+        Assert.Equal(10, point.Fields["value_min"]);
+        Assert.Equal(60, point.Fields["value_max"]);
+        Assert.Equal(1, point.Fields["quality"]);
+    }
+
+    [Fact]
+    public async Task ASeriesWithNoPointYetHasNoOpenIntervalAndOneWithoutARuleNeverHas()
+    {
+        await using var sink = Create();
+        var untouched = Sensor();
+        Assert.Null(sink.CaptureInterval(untouched));
+
+        var raw = new SeriesKey("ring", [new(Tags.Site, "brackenford")], ["a0_ue"]);
+        sink.Write(raw, 1_000, [1]);
+        Assert.Null(sink.CaptureInterval(raw));
+        Assert.Single(_inner.Points); // passed through
     }
 }

@@ -177,7 +177,10 @@ public sealed class PlantModel
         var (e, az) = silo.Eccentricity;
         var loads = silo.Loads;
         return new TruthRow(now, site.Site.Id, silo.Options.Id, silo.MassKg, loads.Surface.EquivalentLevelM, e, az, silo.Flow, silo.FlowRateKgPerS,
-            silo.ChannelAzimuthDeg, loads.BaseLoadKn, loads.WallFrictionKn, silo.ActiveFaults(Elapsed), site.NetworkState(Elapsed));
+            silo.ChannelAzimuthDeg, loads.BaseLoadKn, loads.WallFrictionKn, silo.ActiveFaults(Elapsed), site.NetworkState(Elapsed))
+        {
+            WallA1Ratio = silo.WallA1Ratio(),
+        };
     }
 
     private void Shape(TelemetryMessage message, SiteState site, List<OutgoingMessage> output)
@@ -335,6 +338,8 @@ public sealed class PlantModel
         private TimeSpan _gustLength;
         private double _gustMs;
         private double? _gustFrom;
+        private double _shade;
+        private double _shadeTarget;
 
         public SiteOptions Site { get; } = site;
 
@@ -383,6 +388,17 @@ public sealed class PlantModel
             var air = SunPath.AirTemperatureC(hour, weather);
             var azimuth = SunPath.AzimuthDeg(hour, weather.SunriseHour, weather.SunsetHour);
             var intensity = SunPath.Intensity(hour, weather.SunriseHour, weather.SunsetHour);
+            if (weather.PassingCloudsPerHour > 0)
+            {
+                // Only with passing clouds does the weather draw from the noise for them: other scenarios stay as they were.
+                if (noise.Chance(weather.PassingCloudsPerHour * dtS / 3600))
+                {
+                    _shadeTarget = _shadeTarget > 0 ? 0 : Math.Clamp(weather.CloudShade, 0, 1);
+                }
+
+                _shade += (_shadeTarget - _shade) * (1 - Math.Exp(-dtS / 60));
+                intensity *= 1 - _shade;
+            }
 
             // Wind: a mean with a slowly wandering direction, random gusts and scripted ones (1 − cos shape).
             _windWander += (-_windWander * dtS / 600) + (15 * Math.Sqrt(2 * dtS / 600) * noise.Gaussian());

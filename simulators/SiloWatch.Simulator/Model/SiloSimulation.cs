@@ -20,6 +20,7 @@ public sealed class SiloSimulation
     private readonly SensorState[] _sensors;
     private readonly Dictionary<string, SensorState> _byId;
     private readonly Dictionary<int, double> _shellC = [];
+    private readonly SensorOptions[][] _rings;
     private Delivery? _delivery;
     private Discharge? _discharge;
     private FlowChannel? _channel;
@@ -54,6 +55,8 @@ public sealed class SiloSimulation
 
         _sensors = [.. silo.Sensors.Select(s => new SensorState(s, AngleOf(s, silo), _noise))];
         _byId = _sensors.ToDictionary(s => s.Options.Id, StringComparer.Ordinal);
+        _rings = [.. silo.Sensors.Where(s => s.Kind is SensorKind.AxialStrain or SensorKind.HoopStrain && s.Ring.Length > 0)
+            .GroupBy(s => s.Ring, StringComparer.Ordinal).Select(g => g.ToArray())];
         Loads = ComputeLoads();
     }
 
@@ -96,6 +99,50 @@ public sealed class SiloSimulation
             var az = Math.Atan2(y, x) * 180 / Math.PI;
             return (Math.Sqrt((x * x) + (y * y)), az < 0 ? az + 360 : az);
         }
+    }
+
+    /// <summary>
+    /// The truth of the wall-load asymmetry: for every gauge ring the contents cover by at least 0.5 m, the first
+    /// harmonic of the mechanical load (axial compression, hoop tension) at the gauges' angles over its mean,
+    /// A1/A0 [D, DOMAIN.md §4: a_1 = (2/N)Σ ε_k cos θ_k, b_1 likewise]; the largest over the rings. Still air, no
+    /// heat, no noise: only the contents act. 0 without a flow channel, since the rest of the model is axisymmetric.
+    /// </summary>
+    public double WallA1Ratio()
+    {
+        if (Loads.Channel is null || _channel is null)
+        {
+            return 0;
+        }
+
+        var still = new AmbientState(0, double.NaN, 0, 0, 0);
+        var best = 0.0;
+        foreach (var ring in _rings)
+        {
+            if (Loads.Surface.ContactHeightM - ring[0].HeightM < 0.5)
+            {
+                continue;
+            }
+
+            double sum = 0, a = 0, b = 0;
+            foreach (var g in ring)
+            {
+                var (axial, hoop) = WallStrainMicro(g.HeightM, g.AngleDeg, still);
+                var load = g.Kind == SensorKind.AxialStrain ? -axial : hoop;
+                var t = g.AngleDeg * Math.PI / 180;
+                sum += load;
+                a += load * Math.Cos(t);
+                b += load * Math.Sin(t);
+            }
+
+            var n = ring.Length;
+            var mean = sum / n;
+            if (n >= 3 && Math.Abs(mean) > 1e-9)
+            {
+                best = Math.Max(best, 2.0 / n * Math.Sqrt((a * a) + (b * b)) / Math.Abs(mean));
+            }
+        }
+
+        return best;
     }
 
     public string ActiveFaults(TimeSpan elapsed) =>
@@ -142,6 +189,8 @@ public sealed class SiloSimulation
             {
                 SensorKind.LoadCell => LoadCellValue(s, supportLoads, ambient, elapsed),
                 SensorKind.AxialStrain or SensorKind.HoopStrain => GaugeValue(s, ambient, elapsed),
+                // The control system's outlet signal: 1 while the discharge runs, 0 otherwise (no noise on a contact).
+                SensorKind.Outlet => _discharge is not null ? 1.0 : 0.0,
                 _ => TemperatureAt(s.AngleDeg, ambient) + (_scenario.Noise.TemperatureK * s.NoiseFactorAt(elapsed) * _noise.Gaussian()),
             };
             var sensorPeriodMs = Math.Max(periodMs, (long)s.Options.ExpectedPeriod.TotalMilliseconds);

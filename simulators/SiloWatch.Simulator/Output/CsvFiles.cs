@@ -7,7 +7,7 @@ namespace SiloWatch.Simulator.Output;
 /// <summary>Ground truth of a run as CSV: one row per silo per truth interval and at each change of state.</summary>
 public sealed class TruthCsvWriter : IDisposable
 {
-    public const string Header = "time,site,silo,mass_kg,level_m,eccentricity_m,eccentricity_azimuth_deg,flow,flow_rate_kg_per_s,channel_azimuth_deg,floor_load_kn,wall_friction_kn,faults,network";
+    public const string Header = "time,site,silo,mass_kg,level_m,eccentricity_m,eccentricity_azimuth_deg,flow,flow_rate_kg_per_s,channel_azimuth_deg,wall_a1_ratio,floor_load_kn,wall_friction_kn,faults,network";
 
     private readonly TextWriter _writer;
 
@@ -42,6 +42,7 @@ public sealed class TruthCsvWriter : IDisposable
             r.Flow.ToString().ToLowerInvariant(),
             r.FlowRateKgPerS.ToString("F2", c),
             r.ChannelAzimuthDeg?.ToString("F1", c) ?? "",
+            r.WallA1Ratio.ToString("F4", c),
             r.FloorLoadKn.ToString("F2", c),
             r.WallFrictionKn.ToString("F2", c),
             r.Faults,

@@ -186,6 +186,20 @@ public static class SiloLoads
         return 0.5 * (1 + Math.Cos(Math.PI * (d - (half - edge)) / (2 * edge)));
     }
 
+    // How strong the eccentric pattern is, and why the demo's A1/A0 placeholder follows it (not the reverse):
+    // the pattern is local. Inside the channel the load falls, beside it (p_hae = 2·p_hf − p_hce) it rises, so round
+    // a ring the two nearly balance and the first harmonic carries a small part of it: with the channel of EN 1991-4's
+    // largest size against the wall (r_c = 0.5·r [M: the standard asks for r_c = 0.5, 0.35, 0.25·r, from memory]) S1's
+    // rings read A1/A0 ≈ 0.13-0.15, and even a channel as wide as the silo's radius gives only ≈ 0.2. That is also the
+    // order of the design allowance: EN 1991-4's discharge patch on a thin circular wall varies as cos θ with
+    // C_pe = 0.42·C_op·(1 + 2E²)·(1 − e^(−1.5(h_c/d_c − 1))) [M?], for S1 (wheat, C_op = 0.5 [M], h_c/d_c = 3,
+    // concentric E = 0) C_pe ≈ 0.20 over a band s = π·d_c/16 ≈ 1.2 m; its overturning moment at S1's base ring,
+    // M ≈ π·r·p_pe·s·(lever ≈ 7.5 m), is an axial first harmonic M/(π·r²) ≈ 0.12 of the mean n_z [D, estimate]. A
+    // limit of 0.35 (the first placeholder) would flag nothing a flow channel can do; the pure cos pattern the old
+    // detection generator injected reached any setpoint by construction. The physics here is kept as it was (it
+    // spreads the channel's friction deficit round the ring, which if anything overstates n = 1 against EN's local
+    // balance); the demo plant's placeholder is 0.10. The real limit is the structural engineer's.
+
     /// <summary>
     /// Normal wall pressure and accumulated wall friction at a point of the ring, depth z below the
     /// contact: Janssen with discharge factors, and with an eccentric channel p_hce inside and

@@ -60,6 +60,15 @@ public sealed class WeatherSettings
     /// <summary>0 clear sky … 1 overcast (scales the sun's warming).</summary>
     public double Cloudiness { get; set; } = 0.2;
 
+    /// <summary>
+    /// Passing clouds per hour: at each, the sky turns from clear to shaded or back, and the sunlight eases to its new
+    /// level over about a minute. Default 0 (the sky stays as <see cref="Cloudiness"/> says).
+    /// </summary>
+    public double PassingCloudsPerHour { get; set; }
+
+    /// <summary>Share of the sunlight a passing cloud takes away, 0..1. Default 0.8.</summary>
+    public double CloudShade { get; set; } = 0.8;
+
     /// <summary>Time constant of the shell's temperature, s.</summary>
     public double ShellTimeConstantS { get; set; } = 600;
 

@@ -108,6 +108,7 @@ public static class AlarmDefinitions
                 SensorKind.LoadCell => "load cell",
                 SensorKind.AxialStrain => "axial wall gauge",
                 SensorKind.HoopStrain => "hoop wall gauge",
+                SensorKind.Outlet => "outlet signal",
                 _ => "temperature sensor",
             };
             list.Add(new AlarmDefinition($"{site}/{id}/sensor-bad-{s.Id}", site, id, ConditionKeys.SensorBad(id, s.Id), "bad", AlarmDirection.High,

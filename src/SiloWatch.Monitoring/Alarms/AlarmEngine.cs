@@ -24,7 +24,8 @@ public sealed class AlarmEngineOptions
 /// Alarm states and transitions after the ISA-18.2 / IEC 62682 state model [M: from memory of
 /// ISA-18.2-2016 §11]: normal, unacknowledged, acknowledged, returned-to-normal unacknowledged,
 /// latched, shelved (time-limited), suppressed by design (outside the discharge states a definition is
-/// meant for), out of service; on-delay, off-delay and deadband; a flood summary per site. Every change
+/// meant for), out of service; on-delay, off-delay and deadband; a flood summary per site, counted over
+/// every silo of the site when the engines share an <see cref="AlarmFloodTracker"/>. Every change
 /// is returned as an <see cref="AlarmTransition"/> for the journal. Every timer runs on the injected
 /// <see cref="TimeProvider"/>. One instance per site or per silo, called from one thread.
 /// <para>
@@ -42,14 +43,21 @@ public sealed class AlarmEngine
     private readonly Dictionary<string, Entry> _byId = new(StringComparer.Ordinal);
     private readonly Dictionary<string, List<Entry>> _byCondition = new(StringComparer.Ordinal);
     private readonly List<Entry> _entries = [];
-    private readonly Dictionary<string, Flood> _floods = new(StringComparer.Ordinal);
+    private readonly AlarmFloodTracker _floods;
+    private readonly string[] _sites;
+    private readonly Dictionary<string, long> _announcedFloods = new(StringComparer.Ordinal);
 
-    public AlarmEngine(IEnumerable<AlarmDefinition> definitions, TimeProvider time, AlarmEngineOptions? options = null)
+    /// <param name="floods">
+    /// The flood count shared with the engines of the other silos of the same sites (one per service); null counts
+    /// this engine's own activations only.
+    /// </param>
+    public AlarmEngine(IEnumerable<AlarmDefinition> definitions, TimeProvider time, AlarmEngineOptions? options = null, AlarmFloodTracker? floods = null)
     {
         ArgumentNullException.ThrowIfNull(definitions);
         ArgumentNullException.ThrowIfNull(time);
         _time = time;
-        _options = options ?? new AlarmEngineOptions();
+        _options = options ?? floods?.Options ?? new AlarmEngineOptions();
+        _floods = floods ?? new AlarmFloodTracker(_options);
         var now = NowMs();
         foreach (var d in definitions)
         {
@@ -77,22 +85,24 @@ public sealed class AlarmEngine
 
             list.Add(e);
         }
+
+        _sites = [.. _entries.Select(e => e.Definition.SiteId).Distinct(StringComparer.Ordinal)];
     }
 
     public IReadOnlyList<AlarmDefinition> Definitions => [.. _entries.Select(e => e.Definition)];
 
-    /// <summary>Every alarm that is not normal and not suppressed by design, plus an ongoing flood per site: the retained alarms topic.</summary>
+    /// <summary>Every alarm that is not normal and not suppressed by design, plus an ongoing site flood this engine began: the retained alarms topic.</summary>
     public IReadOnlyList<AlarmState> Active
     {
         get
         {
             var list = _entries.Where(e => e.State is not (AlarmStateName.Normal or AlarmStateName.SuppressedByDesign)).Select(StateOf).ToList();
-            foreach (var (site, flood) in _floods)
+            foreach (var (site, since) in _announcedFloods)
             {
-                if (flood.Active)
+                // A site's flood is listed by the engine whose activation began it, so it appears once per site.
+                if (_floods.Active(site) is { } flood && flood.SinceMs == since)
                 {
-                    list.Add(new AlarmState(ConditionKeys.Flood(site), site, "", ConditionKeys.Flood(site), 1, AlarmStateName.Unacknowledged, true, false,
-                        flood.Times.Count, _options.FloodCount, "alarms", flood.SinceMs, flood.SinceMs, null, "", "", false, FloodMessage(flood.Times.Count)));
+                    list.Add(flood);
                 }
             }
 
@@ -130,14 +140,12 @@ public sealed class AlarmEngine
             }
         }
 
-        foreach (var (site, flood) in _floods)
+        foreach (var site in _sites)
         {
-            Prune(flood, now);
-            if (flood.Active && flood.Times.Count <= _options.FloodEndCount)
+            // Whichever engine of the site looks first after the flood has eased reports its end, once.
+            if (_floods.TryEnd(site, now) is { } end)
             {
-                flood.Active = false;
-                output.Add(new AlarmTransition(now, ConditionKeys.Flood(site), site, "", ConditionKeys.Flood(site), 1, AlarmStateName.Unacknowledged, AlarmStateName.Normal,
-                    flood.Times.Count, _options.FloodCount, "alarms", System, $"{flood.DuringFlood} activations during the flood", "Alarm flood over."));
+                output.Add(end);
             }
         }
 
@@ -418,42 +426,14 @@ public sealed class AlarmEngine
 
     private bool CountActivation(string site, long now, List<AlarmTransition> output)
     {
-        if (!_floods.TryGetValue(site, out var flood))
+        var (duringFlood, started) = _floods.CountActivation(site, now);
+        if (started is not null)
         {
-            _floods[site] = flood = new Flood();
+            _announcedFloods[site] = now;
+            output.Add(started);
         }
 
-        flood.Times.Enqueue(now);
-        Prune(flood, now);
-        if (flood.Active)
-        {
-            flood.DuringFlood++;
-            return true;
-        }
-
-        if (flood.Times.Count > _options.FloodCount)
-        {
-            flood.Active = true;
-            flood.SinceMs = now;
-            flood.DuringFlood = 1;
-            output.Add(new AlarmTransition(now, ConditionKeys.Flood(site), site, "", ConditionKeys.Flood(site), 1, AlarmStateName.Normal, AlarmStateName.Unacknowledged,
-                flood.Times.Count, _options.FloodCount, "alarms", System, "", FloodMessage(flood.Times.Count)));
-            return true;
-        }
-
-        return false;
-    }
-
-    private string FloodMessage(int count) =>
-        $"Alarm flood: {count} alarms within {_options.FloodWindow.TotalMinutes:0} min on this site. Work from the highest priority down; each alarm stays in the alarm list.";
-
-    private void Prune(Flood flood, long now)
-    {
-        var window = (long)_options.FloodWindow.TotalMilliseconds;
-        while (flood.Times.Count > 0 && now - flood.Times.Peek() > window)
-        {
-            flood.Times.Dequeue();
-        }
+        return duringFlood;
     }
 
     private static AlarmTransition Move(Entry e, AlarmStateName to, long now, string by, string comment, bool duringFlood = false)
@@ -503,14 +483,5 @@ public sealed class AlarmEngine
         public string ShelveReason = "";
 
         public void ResetTimers() => (OnSinceMs, OffSinceMs) = (long.MinValue, long.MinValue);
-    }
-
-    private sealed class Flood
-    {
-        public Queue<long> Times { get; } = new();
-
-        public bool Active;
-        public long SinceMs;
-        public int DuringFlood;
     }
 }

@@ -35,8 +35,8 @@ public sealed record CalibrationFit(
 
     public double UnitWeightRelativeStd => (UnitWeightHigh95KnM3 - UnitWeightLow95KnM3) / (2 * 1.959963984540054 * UnitWeightKnM3);
 
-    /// <summary>The calibration to apply, recorded with who confirmed it and when.</summary>
-    public InventoryCalibration Confirm(string by, long nowUnixMs, string note = "")
+    /// <summary>The calibration to apply, recorded with who confirmed it and when; a ring gain confirmed before (<paramref name="current"/>) is kept.</summary>
+    public InventoryCalibration Confirm(string by, long nowUnixMs, string note = "", InventoryCalibration? current = null)
     {
         ArgumentException.ThrowIfNullOrWhiteSpace(by);
         return new InventoryCalibration(
@@ -46,7 +46,10 @@ public sealed record CalibrationFit(
             Math.Max(KMuRelativeStd, InventoryCalibrator.MinimumRelativeStd),
             nowUnixMs,
             by,
-            string.IsNullOrEmpty(note) ? Note : note);
+            string.IsNullOrEmpty(note) ? Note : note,
+            current?.RingGain,
+            current?.RingGainRelativeStd,
+            ResidualRmsKn);
     }
 }
 
@@ -58,7 +61,7 @@ public sealed record CalibrationFit(
 public static class InventoryCalibrator
 {
     /// <summary>Smallest relative σ a confirmed calibration states: Janssen itself is a model, and K·μ moves with filling history [D: a choice].</summary>
-    public const double MinimumRelativeStd = 0.01;
+    public const double MinimumRelativeStd = 0.003;
 
     /// <param name="floorLoadStdKn">σ of one floor-load point, kN (cells and their tare).</param>
     /// <param name="massStdKg">σ of one known mass, kg (delivery records), used for the level points.</param>

@@ -61,6 +61,9 @@ public sealed record TareRecord(
 /// </summary>
 /// <param name="UnitWeightRelativeStd">σ of the fitted unit weight, relative.</param>
 /// <param name="KMuRelativeStd">σ of the fitted K·μ, relative.</param>
+/// <param name="RingGain">Factor on the base ring's wall load (modulus, thickness, gauge factor, bonding as installed), from <see cref="RingGainCalibrator"/>; null keeps 1.</param>
+/// <param name="RingGainRelativeStd">σ of the fitted ring gain, relative.</param>
+/// <param name="FloorLoadResidualKn">RMS of the K·μ fit's floor-load residuals, kN: how far the model's curve stays from the plant's; kept as a floor-load error.</param>
 public sealed record InventoryCalibration(
     double? UnitWeightKnM3,
     double? UnitWeightRelativeStd,
@@ -68,7 +71,10 @@ public sealed record InventoryCalibration(
     double? KMuRelativeStd,
     long ConfirmedMs,
     string ConfirmedBy,
-    string Note);
+    string Note,
+    double? RingGain = null,
+    double? RingGainRelativeStd = null,
+    double? FloorLoadResidualKn = null);
 
 /// <summary>What a restart needs to resume a silo's inventory: tare, learned load shares and calibration. Plain data: serialisable as is.</summary>
 public sealed record MonitorSnapshot(

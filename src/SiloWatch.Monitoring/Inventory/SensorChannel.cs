@@ -13,18 +13,22 @@ internal sealed class SensorChannel
         PeriodMs = Math.Max(1L, (long)options.ExpectedPeriod.TotalMilliseconds);
         StaleAfterMs = (long)Math.Ceiling(PeriodMs * monitoring.StaleMultiple);
         var isTemperature = Kind == SensorKind.Temperature;
+
+        // An outlet signal (0 or 1) rests for hours, sits at the ends of its range and steps: not stuck, saturated or spiking.
+        var isOutlet = Kind == SensorKind.Outlet;
         Stuck = new StuckDetector(
-            (long)(isTemperature ? monitoring.TemperatureStuckWindow : monitoring.StuckWindow).TotalMilliseconds,
+            isOutlet ? long.MaxValue : (long)(isTemperature ? monitoring.TemperatureStuckWindow : monitoring.StuckWindow).TotalMilliseconds,
             isTemperature ? 0.0 : monitoring.StuckToleranceMvPerV);
-        Spike = new SpikeDetector(monitoring.SpikeWindowSamples, monitoring.SpikeThreshold,
+        Spike = new SpikeDetector(monitoring.SpikeWindowSamples, isOutlet ? double.PositiveInfinity : monitoring.SpikeThreshold,
             isTemperature ? monitoring.SpikeSigmaFloorK : monitoring.SpikeSigmaFloorMvPerV);
         EngineeringUnit = Kind switch
         {
             SensorKind.LoadCell => "kN",
             SensorKind.AxialStrain or SensorKind.HoopStrain => "microstrain",
+            SensorKind.Outlet => "state",
             _ => "degC",
         };
-        if (!double.IsNaN(options.RangeMin) && !double.IsNaN(options.RangeMax) && options.RangeMax > options.RangeMin)
+        if (!isOutlet && !double.IsNaN(options.RangeMin) && !double.IsNaN(options.RangeMax) && options.RangeMax > options.RangeMin)
         {
             var margin = monitoring.SaturationMarginFraction * (options.RangeMax - options.RangeMin);
             SaturationLow = options.RangeMin + margin;

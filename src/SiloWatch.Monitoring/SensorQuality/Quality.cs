@@ -71,6 +71,12 @@ public enum QualityFlags
 
     /// <summary>Mass outside the silo's physical range (below empty or above capacity).</summary>
     OutsidePhysicalRange = 1 << 17,
+
+    /// <summary>The stated uncertainty is wide against the capacity, whatever the arrangement.</summary>
+    WideUncertainty = 1 << 18,
+
+    /// <summary>The wall ring was never tared: left out, or (MonitoringOptions.FuseUntaredRing) used with its gauges' configured no-load output as zero.</summary>
+    WallRingNotTared = 1 << 19,
 }
 
 public static class QualityFlagsExtensions
@@ -127,6 +133,8 @@ public static class QualityFlagsExtensions
         QualityFlags.WallRingUnavailable => "wall ring unavailable: floor load only",
         QualityFlags.Held => "held from the last measurement",
         QualityFlags.OutsidePhysicalRange => "outside the silo's physical range",
+        QualityFlags.WideUncertainty => "wide uncertainty",
+        QualityFlags.WallRingNotTared => "wall ring not tared",
         _ => flag.ToString(),
     };
 }

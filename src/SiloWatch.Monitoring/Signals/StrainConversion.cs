@@ -6,12 +6,13 @@ namespace SiloWatch.Monitoring;
 public static class StrainConversion
 {
     /// <summary>
-    /// Microstrain from the transmitted signal, less the gauge's apparent (thermal) strain
-    /// ThermalOutputMicroPerK × (T − T_ref); T_ref is the sensor's ReferenceTemperatureC (default 20 degC).
+    /// Microstrain from the transmitted signal less the bridge's no-load output (ZeroOffsetMvPerV, the
+    /// installed zero), less the gauge's apparent (thermal) strain ThermalOutputMicroPerK × (T − T_ref);
+    /// T_ref is the sensor's ReferenceTemperatureC (default 20 degC).
     /// </summary>
     public static double StrainMicro(double signalMvPerV, SensorOptions gauge, double poissonRatio, double temperatureC)
     {
-        var indicated = BridgeEquations.StrainMicroFromMvPerV(gauge.Bridge, signalMvPerV, gauge.GaugeFactor, poissonRatio);
+        var indicated = BridgeEquations.StrainMicroFromMvPerV(gauge.Bridge, signalMvPerV - gauge.ZeroOffsetMvPerV, gauge.GaugeFactor, poissonRatio);
         return indicated - ThermalOutputMicro(gauge, temperatureC);
     }
 

@@ -57,8 +57,8 @@ public sealed class DischargeStateMachine(WallWatchOptions options)
     public bool UsesOutletSignal(long nowMs) => _outletMs != long.MinValue && nowMs - _outletMs <= _outletFreshMs;
 
     /// <summary>
-    /// An outlet signal (gate or feeder running, from a PLC): open means the silo is discharging. The plant
-    /// definition has no sensor kind for it yet; the host calls this when one is configured.
+    /// An outlet signal (gate or feeder running, from a PLC): open means the silo is discharging. Fed by the wall watch
+    /// from the silo's <see cref="Plant.SensorKind.Outlet"/> sensors.
     /// </summary>
     public void OnOutlet(long tsMs, bool open)
     {

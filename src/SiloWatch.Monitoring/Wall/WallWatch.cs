@@ -40,7 +40,10 @@ public sealed class WallWatch
     private readonly double[] _scratch2;
     private readonly HistoryEntry[] _history;
     private readonly Queue<(long Ms, double MassKg)> _massHistory = new();
+    private long _firstMassMs = long.MinValue;
     private readonly int[] _gaugeSensors;
+    private readonly int[] _outletSensors;
+    private readonly long _outletFreshMs;
     private readonly double _youngsGPa;
     private readonly double _poisson;
     private readonly double _thicknessM;
@@ -95,6 +98,8 @@ public sealed class WallWatch
         }
 
         _supportOfCell = [.. sensors.Select(s => s.Kind == SensorKind.LoadCell ? s.Support : 0)];
+        _outletSensors = [.. sensors.Select((s, i) => (s, i)).Where(x => x.s.Kind == SensorKind.Outlet).Select(x => x.i)];
+        _outletFreshMs = (long)options.OutletSignalTimeout.TotalMilliseconds;
 
         // Rings: gauges grouped by ring id, in the model's gauge order.
         var tau = options.ThermalLearningTime.TotalSeconds;
@@ -187,8 +192,43 @@ public sealed class WallWatch
         s.LastMs = tsMs;
     }
 
-    /// <summary>The outlet signal (open = discharging), when the plant has one; see <see cref="DischargeStateMachine.OnOutlet"/>.</summary>
-    public void OnOutlet(long tsMs, bool open) => _state.OnOutlet(tsMs, open);
+    /// <summary>
+    /// One sample of an outlet signal (<see cref="SensorKind.Outlet"/>: 1 open or running, 0 closed or stopped) and its
+    /// quality. While a good one is fresh it decides discharging (<see cref="DischargeStateMachine.OnOutlet"/>); several
+    /// outlets of a silo count as open when any fresh one is open.
+    /// </summary>
+    public void OnOutlet(int sensorIndex, long tsMs, double value, Quality quality)
+    {
+        OnValue(sensorIndex, tsMs, value, quality);
+        ForwardOutlets();
+    }
+
+    private void ForwardOutlets()
+    {
+        var latest = long.MinValue;
+        foreach (var i in _outletSensors)
+        {
+            var s = _slots[i];
+            if (s.Quality is not (null or Quality.Bad) && double.IsFinite(s.Value))
+            {
+                latest = Math.Max(latest, s.LastMs);
+            }
+        }
+
+        if (latest == long.MinValue)
+        {
+            return; // no usable outlet signal: the state machine falls back to the rate once the last one is stale
+        }
+
+        var open = false;
+        foreach (var i in _outletSensors)
+        {
+            var s = _slots[i];
+            open |= s.Quality is not (null or Quality.Bad) && s.Value >= 0.5 && latest - s.LastMs <= _outletFreshMs;
+        }
+
+        _state.OnOutlet(latest, open);
+    }
 
     /// <summary>
     /// Takes every sensor's value and quality from the inventory side's readings (index = sensor index of
@@ -216,6 +256,11 @@ public sealed class WallWatch
                 var t = _slots[s.TemperatureSensor];
                 s.TemperatureC = t.Quality == Quality.Bad ? double.NaN : t.Value;
             }
+        }
+
+        if (_outletSensors.Length > 0)
+        {
+            ForwardOutlets();
         }
     }
 
@@ -762,6 +807,19 @@ public sealed class WallWatch
     {
         var windowMs = (long)_options.IdleMassWindow.TotalMilliseconds;
         if (!double.IsFinite(massKg))
+        {
+            return double.NaN;
+        }
+
+        // The inventory filter's first estimates converge (the demo's floor-weighed C1 moves by several hundred kg in its
+        // first seconds): the first window after the first estimate is not judged. Before, that start-up was hidden by a
+        // short false fill or discharge; an outlet signal that says "closed" now keeps the silo idle through it.
+        if (_firstMassMs == long.MinValue)
+        {
+            _firstMassMs = nowMs;
+        }
+
+        if (nowMs - _firstMassMs < windowMs)
         {
             return double.NaN;
         }

@@ -74,7 +74,7 @@ public sealed class SiloAlarms
         _events = events;
         _time = context.Time;
         _clock = new SiloClock(_time.GetUtcNow().ToUnixTimeMilliseconds());
-        _engine = new AlarmEngine(definitions, _clock, engineOptions);
+        _engine = new AlarmEngine(definitions, _clock, engineOptions, context.Floods);
         _journal = context.Journal;
         _outbound = context.Outbound;
         _sink = context.Sink;
@@ -328,6 +328,9 @@ public sealed class SiloAlarms
             case SensorKind.LoadCell:
                 _wall.OnLoadCell(i, tsMs, value, quality);
                 break;
+            case SensorKind.Outlet:
+                _wall.OnOutlet(i, tsMs, value, quality);
+                break;
             default:
                 _wall.OnValue(i, tsMs, value, quality);
                 break;
@@ -493,4 +496,8 @@ public sealed record SiloAlarmsContext(
     SiloWatch.Messaging.TopicScheme Topics,
     TimeProvider Time,
     string InstanceId,
-    ILogger Logger);
+    ILogger Logger)
+{
+    /// <summary>The flood count of every site, shared by the silos' engines (null: each engine counts its own).</summary>
+    public AlarmFloodTracker? Floods { get; init; }
+}

@@ -30,13 +30,19 @@ public sealed class SiloAlarmsFactory(
     TimeProvider time,
     ILoggerFactory loggers)
 {
+    // One flood count for the whole instance: ISA-18.2 counts a flood per site, across all its silos.
+    private readonly AlarmFloodTracker _floods = new(engine.Value);
+
     public EvaluationOptions Evaluation => evaluation.Value;
 
     public SiloAlarms Create(SiloRef silo, SiloModel model)
     {
         ArgumentNullException.ThrowIfNull(silo);
         var context = new SiloAlarmsContext(journal, outbound, sink, series, counts, changed, topics, time, instance.Value.Id,
-            loggers.CreateLogger("SiloWatch.Service.Alarms.SiloAlarms"));
+            loggers.CreateLogger("SiloWatch.Service.Alarms.SiloAlarms"))
+        {
+            Floods = _floods,
+        };
         var recorder = new DischargeEventRecorder(silo, model, events.Value, wall.Value, new DischargeEventContext(journal, outbound,
             topics.Events(silo.SiteId, silo.SiloId), instance.Value.Id, loggers.CreateLogger<DischargeEventRecorder>()));
         var alarms = new SiloAlarms(silo, new WallWatch(silo, model, wall.Value), AlarmDefinitions.ForSilo(silo, model, definitions.Value),

@@ -45,6 +45,21 @@ public sealed class InstanceOptions
     /// </summary>
     public QueueFullMode QueueFullMode { get; set; } = QueueFullMode.Wait;
 
+    /// <summary>
+    /// Longest time a processed telemetry message waits for its silo's checkpoint (store flushed,
+    /// resume point saved in the journal), after which it is acknowledged to the broker. Until then
+    /// the broker keeps it for the persistent session, so a kill loses nothing. Default 1 s.
+    /// </summary>
+    public TimeSpan CheckpointInterval { get; set; } = TimeSpan.FromSeconds(1);
+
+    /// <summary>
+    /// A worker checkpoints at the latest when this many messages wait for it. Keep it below the
+    /// broker's in-flight window for this client (Mosquitto: max_inflight_messages, 0 = unlimited),
+    /// or the broker pauses until the next timed checkpoint. Default 1000.
+    /// </summary>
+    [Range(1, 65535)]
+    public int CheckpointMessages { get; set; } = 1000;
+
     /// <summary>Interval at which estimates are evaluated and published. Default 1 s.</summary>
     public TimeSpan PublishInterval { get; set; } = TimeSpan.FromSeconds(1);
 

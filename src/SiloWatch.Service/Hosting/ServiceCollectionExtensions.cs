@@ -82,6 +82,7 @@ public static class ServiceCollectionExtensions
         services.AddOptions<MonitoringOptions>().Bind(builder.Configuration.GetSection(MonitoringOptions.SectionName));
         services.AddSingleton<BrokerEndpoint>();
         services.AddSingleton<IngestCounters>();
+        services.AddSingleton<PublishRefusals>();
         services.AddSingleton(sp => new OutboundQueue(sp.GetRequiredService<IngestCounters>()));
         services.AddSingleton(sp => new TopicScheme(sp.GetRequiredService<IOptions<MqttOptions>>().Value.TopicPrefix));
         services.AddSingleton(sp => new TelemetryIngest(
@@ -96,6 +97,7 @@ public static class ServiceCollectionExtensions
             sp.GetRequiredService<IOptions<InstanceOptions>>().Value,
             sp.GetRequiredService<SiloWatch.Storage.ITimeSeriesSink>(),
             sp.GetRequiredService<SiloWatch.Storage.SeriesCatalog>(),
+            sp.GetRequiredService<SiloWatch.Storage.Journal>(),
             sp.GetRequiredService<TimeProvider>(),
             sp.GetRequiredService<ILogger<TelemetryIngest>>(),
             sp.GetService<SiloWatch.Service.Alarms.SiloAlarmsFactory>()));

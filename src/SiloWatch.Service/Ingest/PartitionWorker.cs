@@ -3,20 +3,35 @@ using System.Threading.Channels;
 namespace SiloWatch.Service.Ingest;
 
 /// <summary>
-/// One worker loop: drains its partition's queue, one silo pipeline at a time, and publishes the
-/// estimates of its silos each interval. No locks: a silo belongs to exactly one worker.
+/// One worker loop: drains its partition's queue, one silo pipeline at a time, publishes the
+/// estimates of its silos each interval, and checkpoints them (see <see cref="IngestCheckpoints"/>)
+/// at least every checkpoint interval, acknowledging the messages a checkpoint covers. No locks: a
+/// silo belongs to exactly one worker.
 /// </summary>
 public sealed class PartitionWorker
 {
     private readonly Channel<IngestMessage> _queue;
     private readonly List<SiloPipeline> _pipelines = [];
+    private readonly List<AckTicket> _uncheckpointed = [];
     private readonly TimeProvider _time;
     private readonly TimeSpan _publishInterval;
     private readonly string _instanceId;
     private readonly ILogger _logger;
+    private readonly IngestCheckpoints _checkpoints;
+    private DateTimeOffset _nextCheckpoint = DateTimeOffset.MaxValue;
+    private DateTimeOffset _lastCheckpoint = DateTimeOffset.MinValue;
 
-    public PartitionWorker(int index, int capacity, TimeProvider time, TimeSpan publishInterval, string instanceId, ILogger logger)
+    /// <summary>
+    /// When the queue runs dry with messages waiting for their checkpoint, it is taken this soon
+    /// after the last one: a broker whose in-flight window is full sends nothing more until it gets
+    /// acknowledgements, and a quiet feed should not wait the whole interval either.
+    /// </summary>
+    public static readonly TimeSpan IdleCheckpointGap = TimeSpan.FromMilliseconds(50);
+
+    public PartitionWorker(int index, int capacity, TimeProvider time, TimeSpan publishInterval, string instanceId, ILogger logger,
+        IngestCheckpoints checkpoints)
     {
+        _checkpoints = checkpoints;
         Index = index;
         _queue = Channel.CreateBounded<IngestMessage>(new BoundedChannelOptions(capacity)
         {
@@ -40,6 +55,11 @@ public sealed class PartitionWorker
 
     public void Add(SiloPipeline pipeline) => _pipelines.Add(pipeline);
 
+    /// <summary>Messages processed and waiting for their checkpoint.</summary>
+    public int Uncheckpointed => Volatile.Read(ref _uncheckpointedCount);
+
+    private int _uncheckpointedCount;
+
     /// <summary>Runs until the queue is completed and drained; then publishes a last estimate of every silo.</summary>
     public async Task RunAsync(CancellationToken stoppingToken)
     {
@@ -47,7 +67,25 @@ public sealed class PartitionWorker
         var nextPublish = _time.GetUtcNow() + _publishInterval;
         while (true)
         {
-            var wait = nextPublish - _time.GetUtcNow();
+            if (stoppingToken.IsCancellationRequested)
+            {
+                return; // a hard stop
+            }
+
+            var checkpointAt = _nextCheckpoint;
+            if (reader.Count == 0 && _uncheckpointed.Count > 0)
+            {
+                var idle = _lastCheckpoint + IdleCheckpointGap;
+                checkpointAt = idle < checkpointAt ? idle : checkpointAt;
+                if (_time.GetUtcNow() >= checkpointAt)
+                {
+                    await CheckpointAsync(stoppingToken).ConfigureAwait(false);
+                    continue;
+                }
+            }
+
+            var wake = nextPublish < checkpointAt ? nextPublish : checkpointAt;
+            var wait = wake - _time.GetUtcNow();
             if (wait > TimeSpan.Zero && reader.Count == 0)
             {
                 using var timeout = new CancellationTokenSource(wait, _time);
@@ -85,7 +123,18 @@ public sealed class PartitionWorker
                     message.Release();
                 }
 
-                if (_time.GetUtcNow() >= nextPublish)
+                if (message.Ticket is { } ticket)
+                {
+                    if (_uncheckpointed.Count == 0)
+                    {
+                        _nextCheckpoint = _time.GetUtcNow() + _checkpoints.Interval;
+                    }
+
+                    _uncheckpointed.Add(ticket);
+                    Volatile.Write(ref _uncheckpointedCount, _uncheckpointed.Count);
+                }
+
+                if (_time.GetUtcNow() >= nextPublish || _uncheckpointed.Count >= _checkpoints.MaxMessages)
                 {
                     break;
                 }
@@ -97,6 +146,11 @@ public sealed class PartitionWorker
                 nextPublish = _time.GetUtcNow() + _publishInterval;
             }
 
+            if (_uncheckpointed.Count >= _checkpoints.MaxMessages || _time.GetUtcNow() >= _nextCheckpoint)
+            {
+                await CheckpointAsync(stoppingToken).ConfigureAwait(false);
+            }
+
             if (reader.Completion.IsCompleted)
             {
                 break;
@@ -105,6 +159,35 @@ public sealed class PartitionWorker
 
         PublishAll();
         SaveSnapshots();
+        await CheckpointAsync(stoppingToken).ConfigureAwait(false);
+    }
+
+    private async Task CheckpointAsync(CancellationToken stoppingToken)
+    {
+        if (stoppingToken.IsCancellationRequested)
+        {
+            return; // a hard stop: what is not checkpointed stays with the broker
+        }
+
+        try
+        {
+            await _checkpoints.SaveAsync(_pipelines, _uncheckpointed, _time.GetUtcNow().ToUnixTimeMilliseconds(), stoppingToken).ConfigureAwait(false);
+            _nextCheckpoint = DateTimeOffset.MaxValue;
+            _lastCheckpoint = _time.GetUtcNow();
+        }
+        catch (Exception ex) when (ex is not OperationCanceledException)
+        {
+            // The messages stay unacknowledged (the broker keeps them) and the next checkpoint tries again.
+            _logger.LogError(ex, "Checkpoint of partition {Partition} failed; {Messages} message(s) stay unacknowledged", Index, _uncheckpointed.Count);
+            _nextCheckpoint = _time.GetUtcNow() + _checkpoints.Interval;
+            _lastCheckpoint = _time.GetUtcNow();
+        }
+        catch (OperationCanceledException) when (stoppingToken.IsCancellationRequested)
+        {
+            // hard stop
+        }
+
+        Volatile.Write(ref _uncheckpointedCount, _uncheckpointed.Count);
     }
 
     private void SaveSnapshots()

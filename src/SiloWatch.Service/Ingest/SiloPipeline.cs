@@ -62,6 +62,7 @@ public sealed class SiloPipeline : ITelemetryReceiver
     public void Process(ReadOnlySpan<byte> payload, long receivedMs)
     {
         _receivedMs = receivedMs;
+        NeedsCheckpoint = true;
         var outcome = _decoder.Decode(payload, receivedMs, this);
         _counters.Sequence(outcome);
         _counters.SamplesAccepted(outcome.Accepted);
@@ -115,9 +116,71 @@ public sealed class SiloPipeline : ITelemetryReceiver
             (double)estimate.Quality,
         ];
         _sink.Write(_series.Estimate(Silo.Index), estimate.TimestampMs, fields);
-        _outbound.Enqueue(new OutboundMessage(_stateTopic, StatePayload.Encode(estimate, instanceId), Retain: true, MqttQualityOfServiceLevel.AtLeastOnce));
+        _outbound.Enqueue(new OutboundMessage(_stateTopic, StatePayload.Encode(estimate, instanceId, _newestSampleMs == long.MinValue ? null : _newestSampleMs), Retain: true, MqttQualityOfServiceLevel.AtLeastOnce));
         Alarms?.Evaluate(Monitor, nowMs, estimate);
         return estimate;
+    }
+
+    /// <summary>The last checkpoint saved (or restored) for this silo; null before the first.</summary>
+    public IngestCheckpoint? LastCheckpoint { get; internal set; }
+
+    /// <summary>True when a message was processed since the last checkpoint.</summary>
+    public bool NeedsCheckpoint { get; private set; }
+
+    /// <summary>
+    /// Everything needed to resume exactly after the last processed message: the monitor's snapshot,
+    /// each publisher's sequence position (so a redelivery is a duplicate) and the open downsampling
+    /// interval of each sensor series (so the interval is completed, not restarted).
+    /// </summary>
+    public IngestCheckpoint CaptureCheckpoint(long nowMs)
+    {
+        NeedsCheckpoint = false;
+        var intervals = new Dictionary<string, OpenInterval>(StringComparer.Ordinal);
+        if (_sink is IIntervalCheckpoint open)
+        {
+            foreach (var sensor in Silo.Sensors)
+            {
+                if (open.CaptureInterval(_series.Sensor(Silo.Index, sensor.Index)) is { } interval)
+                {
+                    intervals[sensor.Id] = interval;
+                }
+            }
+        }
+
+        return new IngestCheckpoint(IngestCheckpoint.CurrentVersion, nowMs, Monitor.Snapshot(), _decoder.CaptureSequences(), intervals);
+    }
+
+    /// <summary>Restores what <see cref="CaptureCheckpoint"/> saved, except the monitor (the caller picks the newest monitor snapshot).</summary>
+    public IReadOnlyList<string> RestoreCheckpoint(IngestCheckpoint checkpoint)
+    {
+        ArgumentNullException.ThrowIfNull(checkpoint);
+        var problems = new List<string>();
+        LastCheckpoint = checkpoint;
+        _decoder.RestoreSequences(checkpoint.Sequences);
+        foreach (var (sensorId, interval) in checkpoint.Intervals)
+        {
+            if (_sink is not IIntervalCheckpoint open)
+            {
+                break;
+            }
+
+            if (!Silo.TryGetSensor(sensorId.AsSpan(), out var sensor))
+            {
+                problems.Add($"sensor {sensorId} of the checkpoint is no longer in the plant definition: its open interval is dropped");
+                continue;
+            }
+
+            try
+            {
+                open.RestoreInterval(_series.Sensor(Silo.Index, sensor.Index), interval);
+            }
+            catch (ArgumentException ex)
+            {
+                problems.Add($"sensor {sensorId}: {ex.Message}");
+            }
+        }
+
+        return problems;
     }
 
     void ITelemetryReceiver.OnSample(in TelemetrySample sample)
@@ -145,4 +208,15 @@ public sealed class SiloPipeline : ITelemetryReceiver
         _outbound.Enqueue(new OutboundMessage(_deadLetterTopic, DeadLetterCodec.Encode(rejection, _receivedMs), Retain: false, MqttQualityOfServiceLevel.AtLeastOnce));
         _counters.DeadLetterQueued();
     }
+}
+
+/// <summary>A silo's resume point, saved in the journal by its worker and read at start-up.</summary>
+public sealed record IngestCheckpoint(
+    int Version,
+    long TakenMs,
+    MonitorSnapshot Monitor,
+    IReadOnlyList<PublisherPosition> Sequences,
+    IReadOnlyDictionary<string, OpenInterval> Intervals)
+{
+    public const int CurrentVersion = 1;
 }

@@ -7,7 +7,11 @@ namespace SiloWatch.Service.Ingest;
 /// <summary>The retained per-silo state message (JSON), documented in the README.</summary>
 public static class StatePayload
 {
-    public static byte[] Encode(InventoryEstimate e, string instanceId)
+    /// <param name="e">The estimate.</param>
+    /// <param name="instanceId">This instance.</param>
+    /// <param name="newestSampleMs">Timestamp of the newest sample the estimate includes ("sampleTs", null when none yet):
+    /// it ties an estimate to the telemetry that produced it, e.g. to measure the latency end to end.</param>
+    public static byte[] Encode(InventoryEstimate e, string instanceId, long? newestSampleMs = null)
     {
         var buffer = new ArrayBufferWriter<byte>(768);
         using (var w = new Utf8JsonWriter(buffer))
@@ -16,6 +20,15 @@ public static class StatePayload
             w.WriteString("site", e.SiteId);
             w.WriteString("silo", e.SiloId);
             w.WriteString("ts", DateTimeOffset.FromUnixTimeMilliseconds(e.TimestampMs));
+            if (newestSampleMs is { } sampleMs)
+            {
+                w.WriteString("sampleTs", DateTimeOffset.FromUnixTimeMilliseconds(sampleMs));
+            }
+            else
+            {
+                w.WriteNull("sampleTs");
+            }
+
             w.WriteString("quality", e.Quality.ToString().ToLowerInvariant());
             w.WriteString("reason", e.QualityReason);
             w.WriteString("method", e.Method);

@@ -17,6 +17,7 @@ public sealed class TelemetryBridgeService(
     TelemetryIngest ingest,
     OutboundQueue outbound,
     IngestCounters counters,
+    PublishRefusals refusals,
     ITimeSeriesSink sink,
     Journal journal,
     TimeProvider time,
@@ -37,11 +38,13 @@ public sealed class TelemetryBridgeService(
         options.Host = host;
         options.Port = port;
         ingest.RestoreSnapshots(journal);
-        ingest.Start(_stopping.Token);
         _client = new SupervisedMqttClient(options, instance.Value.Id, ingest.Subscriptions, ingest.OnMessageAsync,
             loggers.CreateLogger<SupervisedMqttClient>(), time);
+        var client = _client;
+        ingest.Start(() => client.ConnectionNumber, _stopping.Token);
         await _client.StartAsync(cancellationToken).ConfigureAwait(false);
-        _publisher = Task.Run(() => PublishLoopAsync(_client, _stopping.Token), CancellationToken.None);
+        var publisher = new OutboundPublisher(outbound, counters, refusals, time, _logger);
+        _publisher = Task.Run(() => publisher.RunAsync(_client, _stopping.Token), CancellationToken.None);
         _logger.LogInformation("Instance {Instance} owns {Silos} silo(s) over {Partitions} partition(s); broker {Host}:{Port}",
             instance.Value.Id, ingest.Pipelines.Count(), ingest.Workers.Count, host, port);
     }
@@ -84,55 +87,9 @@ public sealed class TelemetryBridgeService(
         }
     }
 
-    private async Task PublishLoopAsync(SupervisedMqttClient client, CancellationToken ct)
-    {
-        var reader = outbound.Reader;
-        OutboundMessage? pending = null;
-        try
-        {
-            while (true)
-            {
-                if (pending is null)
-                {
-                    if (!reader.TryRead(out pending))
-                    {
-                        if (!await reader.WaitToReadAsync(ct).ConfigureAwait(false))
-                        {
-                            return; // completed and drained
-                        }
-
-                        continue;
-                    }
-                }
-
-                if (!client.IsConnected)
-                {
-                    await Task.Delay(TimeSpan.FromMilliseconds(200), time, ct).ConfigureAwait(false);
-                    continue;
-                }
-
-                var message = pending;
-                try
-                {
-                    await client.PublishAsync(message.Topic, message.Payload, message.Retain, message.Qos, ct).ConfigureAwait(false);
-                    pending = null;
-                    counters.PublishedOne();
-                }
-                catch (Exception ex) when (ex is not OperationCanceledException)
-                {
-                    _logger.LogDebug(ex, "Publish to {Topic} failed; retrying", message.Topic);
-                    await Task.Delay(TimeSpan.FromMilliseconds(200), time, ct).ConfigureAwait(false);
-                }
-            }
-        }
-        catch (OperationCanceledException) when (ct.IsCancellationRequested)
-        {
-            // hard stop
-        }
-    }
-
     public async ValueTask DisposeAsync()
     {
+        await ingest.Acks.DisposeAsync().ConfigureAwait(false);
         _stopping.Dispose();
         if (_client is not null)
         {

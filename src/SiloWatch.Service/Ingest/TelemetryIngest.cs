@@ -29,14 +29,16 @@ public sealed class TelemetryIngest
     private readonly RateLimitedLog _rejectLog;
     private readonly ILogger<TelemetryIngest> _logger;
     private readonly AlarmCommandRouter? _commands;
+    private readonly IngestCheckpoints _checkpoints;
     private Task[] _running = [];
     private volatile bool _accepting = true;
 
     public TelemetryIngest(PlantRegistry registry, ShardMap shard, SiloModels models, MonitoringOptions monitoring,
         TelemetryDecoderOptions decoderOptions, TopicScheme topics, IngestCounters counters, OutboundQueue outbound,
-        InstanceOptions options, ITimeSeriesSink sink, SeriesCatalog series, TimeProvider time, ILogger<TelemetryIngest> logger,
+        InstanceOptions options, ITimeSeriesSink sink, SeriesCatalog series, Journal journal, TimeProvider time, ILogger<TelemetryIngest> logger,
         SiloAlarmsFactory? alarms = null)
     {
+        _checkpoints = new IngestCheckpoints(journal, sink, new AckWindow(), options.CheckpointInterval, options.CheckpointMessages);
         _registry = registry;
         _topics = topics;
         _counters = counters;
@@ -48,7 +50,7 @@ public sealed class TelemetryIngest
         var partitions = options.Partitions > 0 ? options.Partitions : Environment.ProcessorCount;
         partitions = Math.Max(1, Math.Min(partitions, Math.Max(1, shard.Owned.Count)));
         _workers = [.. Enumerable.Range(0, partitions).Select(i =>
-            new PartitionWorker(i, options.QueueCapacity, time, options.PublishInterval, options.Id, logger))];
+            new PartitionWorker(i, options.QueueCapacity, time, options.PublishInterval, options.Id, logger, _checkpoints))];
         _pipelinesByKey = new Dictionary<string, SiloPipeline>(StringComparer.Ordinal);
         _writerBySilo = new System.Threading.Channels.ChannelWriter<IngestMessage>[registry.Silos.Count];
         foreach (var silo in shard.Owned)
@@ -73,6 +75,12 @@ public sealed class TelemetryIngest
 
     public IReadOnlyList<PartitionWorker> Workers => _workers;
 
+    /// <summary>Acknowledgements of received messages, sent once a checkpoint covers them.</summary>
+    public AckWindow Acks => _checkpoints.Acks;
+
+    /// <summary>Checkpoints saved since start (one per silo and checkpoint).</summary>
+    public long CheckpointsSaved => _checkpoints.Saved;
+
     public IEnumerable<SiloPipeline> Pipelines => _workers.SelectMany(w => w.Pipelines);
 
     /// <summary>
@@ -86,10 +94,21 @@ public sealed class TelemetryIngest
         .. _commands?.Subscriptions(_ownsAll) ?? [],
     ];
 
-    public void Start(CancellationToken stoppingToken) =>
+    /// <summary>
+    /// Starts the workers and the acknowledgements; <paramref name="connection"/> tells the number of
+    /// the MQTT client's current connection (<see cref="SupervisedMqttClient.ConnectionNumber"/>).
+    /// </summary>
+    public void Start(Func<long> connection, CancellationToken stoppingToken)
+    {
+        _checkpoints.Acks.Start(connection);
         _running = [.. _workers.Select(w => Task.Run(() => w.RunAsync(stoppingToken), CancellationToken.None))];
+    }
 
-    /// <summary>The MQTT receive callback: route by topic, copy, enqueue. Never throws.</summary>
+    /// <summary>
+    /// The MQTT receive callback: route by topic, copy, enqueue. Never throws. The message is
+    /// acknowledged later, in arrival order: telemetry once a checkpoint of its silo covers it,
+    /// anything else once handled here.
+    /// </summary>
     public async Task OnMessageAsync(MqttApplicationMessageReceivedEventArgs e)
     {
         if (!_accepting)
@@ -99,11 +118,21 @@ public sealed class TelemetryIngest
             return;
         }
 
+        var ticket = _checkpoints.Acks.Register(e);
+        if (await RouteAsync(e, ticket).ConfigureAwait(false))
+        {
+            _checkpoints.Acks.Complete(ticket);
+        }
+    }
+
+    /// <returns>True when the message is done with here; false when it went to a worker or was not taken.</returns>
+    private async Task<bool> RouteAsync(MqttApplicationMessageReceivedEventArgs e, AckTicket ticket)
+    {
         var topic = e.ApplicationMessage.Topic;
         if (_commands is not null && _commands.IsCommand(topic))
         {
             _commands.Handle(e.ApplicationMessage);
-            return;
+            return true;
         }
 
         if (!_topics.TryGetTelemetrySiloKey(topic, out var siloKey))
@@ -113,7 +142,7 @@ public sealed class TelemetryIngest
                 RejectTopic(topic, "telemetry topic levels are not valid site and silo ids");
             }
 
-            return;
+            return true;
         }
 
         var receivedMs = _time.GetUtcNow().ToUnixTimeMilliseconds();
@@ -122,14 +151,14 @@ public sealed class TelemetryIngest
         {
             var known = _registry.TryGetSilo(siloKey, out _);
             RejectTopic(topic, known ? "silo is not owned by this instance (shard)" : "no such site/silo in the plant definition");
-            return;
+            return true;
         }
 
-        var message = IngestMessage.Copy(pipeline, e.ApplicationMessage.Payload, receivedMs);
+        var message = IngestMessage.Copy(pipeline, e.ApplicationMessage.Payload, receivedMs, ticket);
         var writer = _writerBySilo[pipeline.Silo.Index];
         if (writer.TryWrite(message))
         {
-            return;
+            return false;
         }
 
         if (_options.QueueFullMode == QueueFullMode.Drop)
@@ -137,7 +166,7 @@ public sealed class TelemetryIngest
             _counters.QueueDroppedOne();
             message.Release();
             _rejectLog.Warn("queue-full", pipeline.Silo.SiteId, pipeline.Silo.SiloId, null, "partition queue full: message dropped");
-            return;
+            return true;
         }
 
         _counters.QueueFullWaited();
@@ -147,9 +176,12 @@ public sealed class TelemetryIngest
         }
         catch (System.Threading.Channels.ChannelClosedException)
         {
+            // Stopping: not taken, so not acknowledged; the broker sends it again to the session.
             message.Release();
-            e.AutoAcknowledge = false;
+            _checkpoints.Acks.Abandon(ticket);
         }
+
+        return false;
     }
 
     private void RejectTopic(string topic, string detail)
@@ -173,20 +205,46 @@ public sealed class TelemetryIngest
         NumberHandling = System.Text.Json.Serialization.JsonNumberHandling.AllowNamedFloatingPointLiterals,
     };
 
-    /// <summary>Restores each silo's tare, load shares and calibration from the journal (before the workers start).</summary>
+    /// <summary>
+    /// Restores each silo from the journal (before the workers start): its checkpoint (publisher
+    /// sequence positions, open downsampling intervals) and the newer of the checkpoint's monitor
+    /// snapshot and the monitor snapshot saved on its own (tare, load shares, calibration).
+    /// </summary>
     public void RestoreSnapshots(Journal journal)
     {
         foreach (var pipeline in _pipelinesByKey.Values)
         {
+            var checkpoint = _checkpoints.Load(pipeline.Silo.Key, out var checkpointProblem);
+            if (checkpointProblem is not null)
+            {
+                _logger.LogWarning("Checkpoint of {Silo} not used: {Problem}; its redelivered messages are processed as new", pipeline.Silo.Key, checkpointProblem);
+            }
+
+            if (checkpoint is not null)
+            {
+                foreach (var problem in pipeline.RestoreCheckpoint(checkpoint))
+                {
+                    _logger.LogWarning("Resuming {Silo}: {Problem}", pipeline.Silo.Key, problem);
+                }
+
+                _logger.LogInformation("Resumed {Silo} from its checkpoint of {Taken}: {Publishers} publisher position(s), {Intervals} open interval(s)",
+                    pipeline.Silo.Key, DateTimeOffset.FromUnixTimeMilliseconds(checkpoint.TakenMs), checkpoint.Sequences.Count, checkpoint.Intervals.Count);
+            }
+
             var json = journal.LoadSnapshot(pipeline.Silo.Key, MonitorSnapshotKind);
-            if (json is null)
+            if (json is null && checkpoint is null)
             {
                 continue;
             }
 
             try
             {
-                var snapshot = System.Text.Json.JsonSerializer.Deserialize<MonitorSnapshot>(json, SnapshotJson);
+                var snapshot = json is null ? null : System.Text.Json.JsonSerializer.Deserialize<MonitorSnapshot>(json, SnapshotJson);
+                if (checkpoint is not null && (snapshot is null || checkpoint.Monitor.TakenMs > snapshot.TakenMs))
+                {
+                    snapshot = checkpoint.Monitor;
+                }
+
                 if (snapshot is null)
                 {
                     continue;
@@ -215,7 +273,10 @@ public sealed class TelemetryIngest
         }
     }
 
-    /// <summary>Stops taking messages, drains every queue and waits for the workers' last publish.</summary>
+    /// <summary>
+    /// Stops taking messages, drains every queue, waits for the workers' last publish and checkpoint,
+    /// and for the acknowledgements they release.
+    /// </summary>
     public async Task DrainAsync(CancellationToken cancellationToken)
     {
         _accepting = false;
@@ -225,6 +286,7 @@ public sealed class TelemetryIngest
         }
 
         await Task.WhenAll(_running).WaitAsync(cancellationToken).ConfigureAwait(false);
+        await _checkpoints.Acks.DrainAsync(cancellationToken).ConfigureAwait(false);
         _logger.LogInformation("Ingest drained: {Messages} messages, {Samples} samples accepted, {Rejected} rejected",
             _counters.Messages, _counters.Samples, _counters.RejectedTotal);
     }

@@ -15,7 +15,7 @@ public sealed class MosquittoServer : IAsyncDisposable
     private readonly string _configPath;
     private Process? _process;
 
-    private MosquittoServer(string binary, int port)
+    private MosquittoServer(string binary, int port, Func<string, string>? access)
     {
         Binary = binary;
         Port = port;
@@ -28,7 +28,7 @@ public sealed class MosquittoServer : IAsyncDisposable
         _configPath = Path.Combine(_folder, "mosquitto.conf");
         File.WriteAllText(_configPath, $"""
             listener {port} 127.0.0.1
-            allow_anonymous true
+            {(access is null ? "allow_anonymous true" : "")}
             persistence true
             persistence_location {_folder}/
             autosave_interval 1
@@ -38,6 +38,7 @@ public sealed class MosquittoServer : IAsyncDisposable
             log_type error
             log_type warning
             log_type notice
+            {access?.Invoke(_folder) ?? ""}
 
             """);
     }
@@ -48,8 +49,12 @@ public sealed class MosquittoServer : IAsyncDisposable
 
     public string Log => File.Exists(Path.Combine(_folder, "mosquitto.log")) ? File.ReadAllText(Path.Combine(_folder, "mosquitto.log")) : "";
 
-    /// <summary>Starts a broker, or returns null when mosquitto is not installed and servers are not required.</summary>
-    public static async Task<MosquittoServer?> StartOrNullAsync()
+    /// <summary>
+    /// Starts a broker, or returns null when mosquitto is not installed and servers are not required.
+    /// <paramref name="access"/> writes files into the broker's folder (given) and returns config lines that
+    /// replace "allow_anonymous true" and come last (a later line wins), e.g. a password file and an ACL.
+    /// </summary>
+    public static async Task<MosquittoServer?> StartOrNullAsync(Func<string, string>? access = null)
     {
         var binary = FindBinary();
         if (binary is null)
@@ -62,7 +67,7 @@ public sealed class MosquittoServer : IAsyncDisposable
             return null;
         }
 
-        var server = new MosquittoServer(binary, FreePort());
+        var server = new MosquittoServer(binary, FreePort(), access);
         await server.StartAsync();
         return server;
     }

@@ -18,11 +18,21 @@ public sealed class ServiceUnderTest : IAsyncDisposable
 
     public TelemetryBridgeService Bridge => _app.Services.GetRequiredService<TelemetryBridgeService>();
 
+    public PublishRefusals Refusals => _app.Services.GetRequiredService<PublishRefusals>();
+
     public SiloWatch.Storage.Journal Journal => _app.Services.GetRequiredService<SiloWatch.Storage.Journal>();
 
     public long Accepted(string siloKey) => Ingest.Pipelines.Where(p => p.Silo.Key == siloKey).Sum(p => p.SamplesAccepted);
 
-    public static async Task<ServiceUnderTest> StartAsync(int brokerPort, string instanceId = "it-0", params (string Key, string Value)[] settings)
+    /// <summary>The base address of /health and the status page (a free loopback port).</summary>
+    public Uri BaseAddress => new(_app.Urls.First());
+
+    public static Task<ServiceUnderTest> StartAsync(int brokerPort, string instanceId = "it-0", params (string Key, string Value)[] settings) =>
+        StartAsync(brokerPort, instanceId, configure: null, settings);
+
+    /// <summary>As above; <paramref name="configure"/> adds to the host before it is built (e.g. a log sink).</summary>
+    public static async Task<ServiceUnderTest> StartAsync(int brokerPort, string instanceId, Action<WebApplicationBuilder>? configure,
+        params (string Key, string Value)[] settings)
     {
         // One data folder per instance id and test run: a restarted instance finds its own journal again.
         var data = Path.Combine(Path.GetTempPath(), "silowatch-it-" + Environment.ProcessId, instanceId);
@@ -45,7 +55,7 @@ public sealed class ServiceUnderTest : IAsyncDisposable
             "--Serilog:MinimumLevel:Default=Warning",
         };
         args.AddRange(settings.Select(s => $"--{s.Key}={s.Value}"));
-        var app = SiloWatchApp.Build([.. args]);
+        var app = SiloWatchApp.Build([.. args], configure);
         await app.StartAsync();
         var service = new ServiceUnderTest(app);
         await TestMqtt.WaitForAsync(() => service.Bridge.Client?.IsConnected == true, "service connected to the broker");

@@ -18,7 +18,11 @@ public sealed class TestMqtt : IAsyncDisposable
 
     public string Publisher { get; private set; } = "gw-test";
 
-    public static async Task<TestMqtt> ConnectAsync(int port, string clientId, params string[] subscriptions)
+    public static Task<TestMqtt> ConnectAsync(int port, string clientId, params string[] subscriptions) =>
+        ConnectAsync(port, clientId, login: null, subscriptions);
+
+    /// <summary>Connects with a user name and password (<paramref name="login"/>), e.g. to a broker with an ACL.</summary>
+    public static async Task<TestMqtt> ConnectAsync(int port, string clientId, (string User, string Password)? login, params string[] subscriptions)
     {
         var client = new MqttClientFactory().CreateMqttClient();
         var mqtt = new TestMqtt(client) { Publisher = clientId };
@@ -27,13 +31,17 @@ public sealed class TestMqtt : IAsyncDisposable
             mqtt.Received.Enqueue((e.ApplicationMessage.Topic, Encoding.UTF8.GetString(e.ApplicationMessage.Payload)));
             return Task.CompletedTask;
         };
-        var options = new MqttClientOptionsBuilder()
+        var builder = new MqttClientOptionsBuilder()
             .WithTcpServer("127.0.0.1", port)
             .WithClientId(clientId)
             .WithProtocolVersion(MQTTnet.Formatter.MqttProtocolVersion.V500)
-            .WithCleanStart(true)
-            .Build();
-        var result = await client.ConnectAsync(options);
+            .WithCleanStart(true);
+        if (login is { } credentials)
+        {
+            builder.WithCredentials(credentials.User, credentials.Password);
+        }
+
+        var result = await client.ConnectAsync(builder.Build());
         Assert.Equal(MqttClientConnectResultCode.Success, result.ResultCode);
         foreach (var filter in subscriptions)
         {
@@ -45,12 +53,20 @@ public sealed class TestMqtt : IAsyncDisposable
         return mqtt;
     }
 
-    public Task PublishRawAsync(string topic, string payload) =>
-        _client.PublishAsync(new MqttApplicationMessageBuilder()
+    /// <summary>Publishes at QoS 1; the result carries the broker's PUBACK reason (e.g. NotAuthorized from its ACL).</summary>
+    public Task<MqttClientPublishResult> PublishRawAsync(string topic, string payload, string? user = null)
+    {
+        var message = new MqttApplicationMessageBuilder()
             .WithTopic(topic)
             .WithPayload(Encoding.UTF8.GetBytes(payload))
-            .WithQualityOfServiceLevel(MqttQualityOfServiceLevel.AtLeastOnce)
-            .Build());
+            .WithQualityOfServiceLevel(MqttQualityOfServiceLevel.AtLeastOnce);
+        if (user is not null)
+        {
+            message.WithUserProperty("user", Encoding.UTF8.GetBytes(user).AsMemory());
+        }
+
+        return _client.PublishAsync(message.Build());
+    }
 
     /// <summary>Publishes one batch for a silo with the next sequence number of this publisher and topic.</summary>
     public async Task<long> PublishBatchAsync(string site, string silo, DateTimeOffset ts, IEnumerable<(string Sensor, double Value, string Unit)> samples, long? seq = null)
