@@ -1,5 +1,6 @@
 using System.Buffers;
 using System.Text.Json;
+using static SiloWatch.Service.PayloadJson;
 using SiloWatch.Monitoring.Alarms;
 using SiloWatch.Monitoring.Wall;
 
@@ -157,19 +158,6 @@ public static class AlarmPayloads
         }
 
         w.WriteEndArray();
-    }
-
-    // JSON has no NaN: an unknown number is null.
-    public static void Number(Utf8JsonWriter w, string name, double? value)
-    {
-        if (value is { } v && double.IsFinite(v))
-        {
-            w.WriteNumber(name, Math.Round(v, 6));
-        }
-        else
-        {
-            w.WriteNull(name);
-        }
     }
 
     private static void Time(Utf8JsonWriter w, string name, long? ms)

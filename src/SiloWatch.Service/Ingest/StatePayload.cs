@@ -1,5 +1,6 @@
 using System.Buffers;
 using System.Text.Json;
+using static SiloWatch.Service.PayloadJson;
 using SiloWatch.Monitoring;
 
 namespace SiloWatch.Service.Ingest;
@@ -50,18 +51,5 @@ public static class StatePayload
         }
 
         return buffer.WrittenSpan.ToArray();
-    }
-
-    // JSON has no NaN: an unknown number is written as null.
-    private static void Number(Utf8JsonWriter w, string name, double? value)
-    {
-        if (value is { } v && double.IsFinite(v))
-        {
-            w.WriteNumber(name, Math.Round(v, 6));
-        }
-        else
-        {
-            w.WriteNull(name);
-        }
     }
 }

@@ -93,14 +93,14 @@ public static class StatusJson
             w.WriteString("quality", e.Quality.ToString().ToLowerInvariant());
             w.WriteString("reason", e.QualityReason);
             w.WriteString("method", e.Method);
-            AlarmPayloads.Number(w, "massKg", e.MassKg);
-            AlarmPayloads.Number(w, "massLow95Kg", e.MassLow95Kg);
-            AlarmPayloads.Number(w, "massHigh95Kg", e.MassHigh95Kg);
-            AlarmPayloads.Number(w, "levelM", e.LevelM);
-            AlarmPayloads.Number(w, "percentFull", e.PercentFull);
-            AlarmPayloads.Number(w, "rateKgPerS", e.RateKgPerS);
-            AlarmPayloads.Number(w, "timeToEmptyS", e.TimeToEmptyS);
-            AlarmPayloads.Number(w, "timeToFullS", e.TimeToFullS);
+            PayloadJson.Number(w, "massKg", e.MassKg);
+            PayloadJson.Number(w, "massLow95Kg", e.MassLow95Kg);
+            PayloadJson.Number(w, "massHigh95Kg", e.MassHigh95Kg);
+            PayloadJson.Number(w, "levelM", e.LevelM);
+            PayloadJson.Number(w, "percentFull", e.PercentFull);
+            PayloadJson.Number(w, "rateKgPerS", e.RateKgPerS);
+            PayloadJson.Number(w, "timeToEmptyS", e.TimeToEmptyS);
+            PayloadJson.Number(w, "timeToFullS", e.TimeToFullS);
         }
 
         w.WriteString("discharge", status is null ? "unknown" : AlarmPayloads.DischargeStateName(status.DischargeState));
@@ -111,9 +111,9 @@ public static class StatusJson
             w.WriteString("ring", r.Ring);
             w.WriteNumber("goodGauges", r.GoodGauges);
             w.WriteNumber("gauges", r.Gauges);
-            AlarmPayloads.Number(w, "a1Ratio", r.A1Ratio);
-            AlarmPayloads.Number(w, "directionDeg", r.DirectionDeg);
-            AlarmPayloads.Number(w, "measuredOverExpected", r.MeasuredOverExpected);
+            PayloadJson.Number(w, "a1Ratio", r.A1Ratio);
+            PayloadJson.Number(w, "directionDeg", r.DirectionDeg);
+            PayloadJson.Number(w, "measuredOverExpected", r.MeasuredOverExpected);
             w.WriteString("note", r.Note);
             w.WriteEndObject();
         }

@@ -1,10 +1,9 @@
-using System.Text.Json.Nodes;
-using System.Text.RegularExpressions;
 using Microsoft.AspNetCore.Builder;
 using Microsoft.AspNetCore.Hosting.Server;
 using Microsoft.AspNetCore.Hosting.Server.Features;
 using Microsoft.Extensions.DependencyInjection;
 using SiloWatch.Service.Hosting;
+using SiloWatch.Integration.Tests.Support;
 using SiloWatch.Simulator;
 
 namespace SiloWatch.Browser.Tests.Support;
@@ -13,7 +12,7 @@ namespace SiloWatch.Browser.Tests.Support;
 /// The real SiloWatch host with its embedded broker on a free port, its status page on a free loopback
 /// port, and the plant simulator playing a scenario into it, accelerated (evaluated on the samples' clock).
 /// </summary>
-public sealed partial class LiveService : IAsyncDisposable
+public sealed class LiveService : IAsyncDisposable
 {
     private readonly WebApplication _app;
     private readonly CancellationTokenSource _stopSimulator = new();
@@ -76,25 +75,7 @@ public sealed partial class LiveService : IAsyncDisposable
     }
 
     /// <summary>A copy of the demo plant with one silo's alarm limit changed, so a test raises a real alarm from real data.</summary>
-    public static string PlantWithLimit(string siloId, string limit, double value)
-    {
-        var text = File.ReadAllText(Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json"));
-        var json = JsonNode.Parse(CommentLine().Replace(text, ""))!;
-        foreach (var site in json["Plant"]!["Sites"]!.AsArray())
-        {
-            foreach (var silo in site!["Silos"]!.AsArray())
-            {
-                if ((string?)silo!["Id"] == siloId)
-                {
-                    silo["AlarmLimits"]![limit] = value;
-                }
-            }
-        }
-
-        var path = Path.Combine(Directory.CreateTempSubdirectory("silowatch-plant-").FullName, "plant.json");
-        File.WriteAllText(path, json.ToJsonString());
-        return path;
-    }
+    public static string PlantWithLimit(string siloId, string limit, double value) => DemoPlantCopy.WithLimits((siloId, limit, value));
 
     public async ValueTask DisposeAsync()
     {
@@ -118,7 +99,4 @@ public sealed partial class LiveService : IAsyncDisposable
         {
         }
     }
-
-    [GeneratedRegex(@"^\s*//.*$", RegexOptions.Multiline)]
-    private static partial Regex CommentLine();
 }

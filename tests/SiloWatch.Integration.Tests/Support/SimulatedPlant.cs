@@ -1,11 +1,9 @@
-using System.Text.Json.Nodes;
-using System.Text.RegularExpressions;
 using SiloWatch.Simulator;
 
 namespace SiloWatch.Integration.Tests.Support;
 
 /// <summary>The plant simulator playing a scenario into a test broker in the background, accelerated; disposing stops it.</summary>
-public sealed partial class SimulatedPlant : IAsyncDisposable
+public sealed class SimulatedPlant : IAsyncDisposable
 {
     private readonly CancellationTokenSource _stop = new();
 
@@ -34,28 +32,7 @@ public sealed partial class SimulatedPlant : IAsyncDisposable
     /// A copy of the demo plant with some silos' alarm limits changed (e.g. a low overfill limit, so a
     /// test raises a real alarm from real data); returns its path.
     /// </summary>
-    public static string PlantWithLimits(params (string SiloId, string Limit, double Value)[] changes)
-    {
-        var text = File.ReadAllText(Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json"));
-        var json = JsonNode.Parse(CommentLine().Replace(text, ""))!;
-        foreach (var site in json["Plant"]!["Sites"]!.AsArray())
-        {
-            foreach (var silo in site!["Silos"]!.AsArray())
-            {
-                foreach (var (siloId, limit, value) in changes)
-                {
-                    if ((string?)silo!["Id"] == siloId)
-                    {
-                        silo["AlarmLimits"]![limit] = value;
-                    }
-                }
-            }
-        }
-
-        var path = Path.Combine(Directory.CreateTempSubdirectory("silowatch-plant-").FullName, "plant.json");
-        File.WriteAllText(path, json.ToJsonString());
-        return path;
-    }
+    public static string PlantWithLimits(params (string SiloId, string Limit, double Value)[] changes) => DemoPlantCopy.WithLimits(changes);
 
     public async ValueTask DisposeAsync()
     {
@@ -70,7 +47,4 @@ public sealed partial class SimulatedPlant : IAsyncDisposable
 
         _stop.Dispose();
     }
-
-    [GeneratedRegex(@"^\s*//.*$", RegexOptions.Multiline)]
-    private static partial Regex CommentLine();
 }
