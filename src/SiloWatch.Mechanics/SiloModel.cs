@@ -471,6 +471,27 @@ public sealed class SiloModel
     }
 
     /// <summary>
+    /// Floor (or hopper) load of a mass of contents with given properties, kN: the level follows from
+    /// the mass and the bulk density of <paramref name="properties"/> (so a lighter solid stands higher).
+    /// The same load as <see cref="Expect"/> and <see cref="FloorLoadAtLevelKn"/>, for any properties; no allocation.
+    /// </summary>
+    public double FloorLoadAtMassKn(double massKg, in SolidProperties properties)
+    {
+        var gamma = properties.UnitWeightKnM3;
+        var volume = Math.Max(0, massKg) / properties.BulkDensityKgM3;
+        if (volume <= _volumeAtTransition)
+        {
+            // All in the hopper (or a heap not yet at the wall): the floor carries the weight.
+            return gamma * volume;
+        }
+
+        var contact = (volume - _volumeAtTransition) / _area;
+        var z0 = Janssen.CharacteristicDepthM(_rh, properties.KMu);
+        var q0 = gamma * Geometry.HeapEquivalentHeightM;
+        return (_area * Janssen.VerticalStressKPa(gamma, z0, contact, q0)) + (gamma * Geometry.HopperVolumeM3);
+    }
+
+    /// <summary>
     /// Level and mass from the contents' floor (or hopper) load, kN, by inverting Janssen with the
     /// expected (or given) properties. Closed form in the vertical section; bracketed Brent in the hopper.
     /// </summary>

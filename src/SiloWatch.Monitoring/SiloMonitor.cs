@@ -23,6 +23,10 @@ public sealed class SiloMonitor
     private const double Z95 = 1.959963984540054;
     private const double KgPerKn = 1000.0 / Units.StandardGravity;
 
+    // Passes of the linearised floor + ring combination and when to stop (share of capacity).
+    private const int FusionPasses = 4;
+    private const double FusionToleranceOfCapacity = 1e-4;
+
     private const QualityFlags CarriedSensorFlags = QualityFlags.TemperatureMissing | QualityFlags.Drift | QualityFlags.Spike | QualityFlags.OverCapacity;
 
     private readonly SiloRef _silo;
@@ -827,10 +831,13 @@ public sealed class SiloMonitor
             return floorOk;
         }
 
-        // Both: the floor-load inversion and floor + wall ring, combined by their variances. They share the
+        // Both: the floor load's own estimate and floor + wall ring, combined by their variances. They share the
         // floor load's errors (covariance dm_F/dF · 1 · var F) [D: best linear unbiased combination of two
         // correlated estimates]; the ring takes over where the inversion is poorly conditioned or fails.
-        var ringSys95 = Z95 * Math.Sqrt(sysVarKg);
+        var ringMassKg = massKg;
+        var ringRandKg = randVarKg;
+        var ringSysKg = sysVarKg;
+        var ringSys95 = Z95 * Math.Sqrt(ringSysKg);
         if (!floorOk || !double.IsFinite(mF))
         {
             _lastSysUp95Kg = _lastSysDown95Kg = ringSys95;
@@ -840,25 +847,116 @@ public sealed class SiloMonitor
         }
 
         flags |= floorFlags & QualityFlags.OutsidePhysicalRange;
-        var covRand = dmdF * KgPerKn * randVarKn;
-        var covSys = dmdF * KgPerKn * sysVarKn;
-        var varF = randF + sysF;
-        var varR = randVarKg + sysVarKg;
-        var denominator = varF + varR - (2 * (covRand + covSys));
-        var w = denominator > 0 ? Math.Clamp((varR - covRand - covSys) / denominator, 0, 1) : 0;
-        var v = 1 - w;
-        massKg = (w * mF) + (v * massKg);
-        randVarKg = Math.Max(0, (w * w * randF) + (v * v * randVarKg) + (2 * w * v * covRand));
-        var zc = Z95 * Z95 * covSys;
-        var up2 = (w * w * upF * upF) + (v * v * ringSys95 * ringSys95) + (2 * w * v * zc);
-        var down2 = (w * w * downF * downF) + (v * v * ringSys95 * ringSys95) + (2 * w * v * zc);
-        sysVarKg = Math.Max(0, (w * w * sysF) + (v * v * sysVarKg) + (2 * w * v * covSys));
-        _lastSysUp95Kg = Math.Sqrt(Math.Max(up2, Z95 * Z95 * sysVarKg * 0.25));
-        _lastSysDown95Kg = Math.Sqrt(Math.Max(down2, Z95 * Z95 * sysVarKg * 0.25));
+        // The floor load's estimate and its sensitivities are linearised at the mass the two agree on, found by a
+        // few Gauss–Newton passes from the ring's [D: iterated linearisation]. Linearised at the inversion's own
+        // answer instead, a K·μ well above the library's near saturation (the floor load then says little about
+        // the mass) puts the floor's estimate far too low and, evaluated down there, with a small stated spread:
+        // the combination followed it (one benchmark run with K·μ 46 % above the library read 9 % of capacity low
+        // with the ring right).
+        var capacityKg = _model.CapacityKg;
+        var linearisedAt = ringMassKg;
+        for (var pass = 0; pass < FusionPasses; pass++)
+        {
+            if (!FloorAtMass(floorKn, sysVarKn, linearisedAt, out mF, out sysF, out upF, out downF, out dmdF))
+            {
+                // The floor load does not move with the mass there: the ring alone.
+                (massKg, randVarKg, sysVarKg) = (ringMassKg, ringRandKg, ringSysKg);
+                _lastSysUp95Kg = _lastSysDown95Kg = ringSys95;
+                break;
+            }
+
+            randF = dmdF * dmdF * randVarKn;
+            var covRand = dmdF * KgPerKn * randVarKn;
+            var covSys = dmdF * KgPerKn * sysVarKn;
+            var varF = randF + sysF;
+            var varR = ringRandKg + ringSysKg;
+            var denominator = varF + varR - (2 * (covRand + covSys));
+            var w = denominator > 0 ? Math.Clamp((varR - covRand - covSys) / denominator, 0, 1) : 0;
+            var v = 1 - w;
+            massKg = (w * mF) + (v * ringMassKg);
+            randVarKg = Math.Max(0, (w * w * randF) + (v * v * ringRandKg) + (2 * w * v * covRand));
+            var zc = Z95 * Z95 * covSys;
+            var up2 = (w * w * upF * upF) + (v * v * ringSys95 * ringSys95) + (2 * w * v * zc);
+            var down2 = (w * w * downF * downF) + (v * v * ringSys95 * ringSys95) + (2 * w * v * zc);
+            sysVarKg = Math.Max(0, (w * w * sysF) + (v * v * ringSysKg) + (2 * w * v * covSys));
+            _lastSysUp95Kg = Math.Sqrt(Math.Max(up2, Z95 * Z95 * sysVarKg * 0.25));
+            _lastSysDown95Kg = Math.Sqrt(Math.Max(down2, Z95 * Z95 * sysVarKg * 0.25));
+            if (Math.Abs(massKg - linearisedAt) < FusionToleranceOfCapacity * capacityKg)
+            {
+                break;
+            }
+
+            linearisedAt = massKg;
+        }
+
         _asymmetric = true;
         _lastConditioning = 1.0;
         return true;
     }
+
+    /// <summary>
+    /// The floor load's estimate of the mass linearised at <paramref name="atKg"/>: m + (F − F(m))/F'(m) with the
+    /// expected properties, its systematic variance (floor-load errors, K·μ and γ taken as floor-load errors at
+    /// that mass) and one-sided 95 % deviations from the 95 % values of K·μ and γ. False where the floor load
+    /// does not grow with the mass. At the inversion's own answer it is the inversion with its sensitivities.
+    /// </summary>
+    private bool FloorAtMass(double floorKn, double sysVarKn, double atKg, out double massKg, out double sysVarKg,
+        out double up95Kg, out double down95Kg, out double dmdF)
+    {
+        massKg = sysVarKg = up95Kg = down95Kg = dmdF = double.NaN;
+        var p = _model.Expected;
+        var m = Math.Max(0, atKg);
+        var at = _model.FloorLoadAtMassKn(m, p);
+        var dm = Math.Max(1e-4 * _model.CapacityKg, 1.0);
+        var slopeKnPerKg = (_model.FloorLoadAtMassKn(m + dm, p) - at) / dm;
+        if (!(slopeKnPerKg > 1e-9 / KgPerKn))
+        {
+            return false;
+        }
+
+        dmdF = 1.0 / slopeKnPerKg;
+        massKg = m + ((floorKn - at) * dmdF);
+        var (gammaStd, residualKn) = FloorPropertyTerms();
+        var floorSysKn = sysVarKn + (residualKn * residualKn);
+        const double h = 0.01;
+        // A property change at fixed mass moves the floor load by ΔF: the floor's estimate moves by −ΔF·dm/dF.
+        var dmdLnKMu = -(_model.FloorLoadAtMassKn(m, p.WithKMu(p.KMu * (1 + h))) - at) / h * dmdF;
+        var dmdLnGamma = -(_model.FloorLoadAtMassKn(m, p with { UnitWeightKnM3 = p.UnitWeightKnM3 * (1 + h) }) - at) / h * dmdF;
+        sysVarKg = (dmdF * dmdF * floorSysKn) + Math.Pow(dmdLnKMu * _kMuRelStd, 2) + Math.Pow(dmdLnGamma * gammaStd, 2);
+        double up2 = Math.Pow(Z95 * dmdF, 2) * floorSysKn, down2 = up2;
+        foreach (var sign in (ReadOnlySpan<double>)[-1.0, 1.0])
+        {
+            var pk = p.WithKMu(p.KMu * Math.Exp(sign * Z95 * _kMuRelStd));
+            var pg = p with { UnitWeightKnM3 = p.UnitWeightKnM3 * (1 + (sign * Z95 * gammaStd)) };
+            foreach (var q in (ReadOnlySpan<SolidProperties>)[pk, pg])
+            {
+                var d = (at - _model.FloorLoadAtMassKn(m, q)) * dmdF;
+                if (d > 0)
+                {
+                    up2 += d * d;
+                }
+                else
+                {
+                    down2 += d * d;
+                }
+            }
+        }
+
+        up95Kg = Math.Sqrt(up2);
+        down95Kg = Math.Sqrt(down2);
+        return true;
+    }
+
+    /// <summary>
+    /// σ of the unit weight where it moves the mass at a floor load, and the calibrated curve's residual floor-load error, kN.
+    /// After a calibration that held γ, the fit pinned the floor load against known masses over the fill: a
+    /// different γ would have been met by a different K·μ along the same curve, so the mass at a floor load
+    /// is left with the fit's K·μ uncertainty (which carries the fit's residuals), and γ moves only the
+    /// level and volume [D]. The calibrated curve misses the plant's by its fit residuals (a shape Janssen
+    /// cannot follow, not noise): a floor-load error that does not average.
+    /// </summary>
+    private (double GammaStd, double ResidualKn) FloorPropertyTerms() =>
+        (_gammaTiedToKMu ? 0 : _unitWeightRelStd, _calibration?.FloorLoadResidualKn ?? 0);
 
     // Total = floor + U·n_z at the ring + the friction between ring and transition (model) [D, DOMAIN.md §3].
     private bool RingTotal(double floorKn, double randVarKn, double sysVarKn, in InversionResult inv, long ts, ref QualityFlags flags,
@@ -895,7 +993,11 @@ public sealed class SiloMonitor
         LastBelowRingLoadKn = belowKn;
         var perMicro = gain * _model.PerimeterM * g.WallYoungsModulusGPa * g.WallThicknessM;
         var ringRand = perMicro * perMicro * ringNoiseMicro2;
-        var ringSys = Math.Pow(wallKn * gainStd, 2) + Math.Pow(0.5 * belowKn, 2) + (perMicro * perMicro * ringSysMicro2);
+        // The hoop stress behind the Poisson term is the model's, from K and μ as uncertain as K·μ is taken
+        // to be (p_h = K·p_v grows with K near the top and goes as 1/μ at saturation) [D]; a wrong one moves
+        // the wall load by U·t·ν·Δσ_θ (a K·μ 45 % above the library's put 2.5 % of the wall load on it).
+        var hoopKn = gain * _model.PerimeterM * g.WallThicknessM * g.WallPoissonRatio * hoopStressKPa * _kMuRelStd;
+        var ringSys = Math.Pow(wallKn * gainStd, 2) + Math.Pow(0.5 * belowKn, 2) + (hoopKn * hoopKn) + (perMicro * perMicro * ringSysMicro2);
         massKg = (floorKn + wallKn + belowKn) * KgPerKn;
         randVarKg = (randVarKn + ringRand) * KgPerKn * KgPerKn;
         sysVarKg = (sysVarKn + ringSys) * KgPerKn * KgPerKn;
@@ -936,13 +1038,7 @@ public sealed class SiloMonitor
         var dmdLnKMu = Slope(_model.InvertFloorLoad(floorKn, p.WithKMu(p.KMu * (1 + h))), m0, h, capacityKg);
         var pGamma = p with { UnitWeightKnM3 = p.UnitWeightKnM3 * (1 + h) };
         var dmdLnGamma = Slope(_model.InvertFloorLoad(floorKn, pGamma), m0, h, capacityKg);
-        // After a calibration that held γ, the fit pinned the floor load against known masses over the fill: a
-        // different γ would have been met by a different K·μ along the same curve, so the mass at a floor load
-        // is left with the fit's K·μ uncertainty (which carries the fit's residuals), and γ moves only the
-        // level and volume [D].
-        var gammaStd = _gammaTiedToKMu ? 0 : _unitWeightRelStd;
-        // The calibrated curve misses the plant's by its fit residuals (a shape Janssen cannot follow, not noise): a floor-load error that does not average.
-        var residualKn = _calibration?.FloorLoadResidualKn ?? 0;
+        var (gammaStd, residualKn) = FloorPropertyTerms();
         sysVarKn += residualKn * residualKn;
 
         massKg = m0;

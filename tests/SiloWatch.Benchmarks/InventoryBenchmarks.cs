@@ -147,6 +147,12 @@ public class InventoryAccuracy
         var truth = InventorySimulation.Truth.Draw(model, random, scenario.EccentricityM);
         var options = new MonitoringOptions();
         var capacityKg = model.CapacityKg;
+        if (Trace)
+        {
+            var e = model.Expected;
+            Console.WriteLine(FormattableString.Invariant(
+                $"seed {seed}: true unit weight {truth.Properties.UnitWeightKnM3:0.00} kN/m3 (library {e.UnitWeightKnM3:0.00}), K·mu {truth.Properties.KMu:0.0000} (library {e.KMu:0.0000}, ln ratio {Math.Log(truth.Properties.KMu / e.KMu):0.000})"));
+        }
 
         InventoryCalibration? calibration = null;
         if (scenario.Calibrate)
@@ -203,7 +209,7 @@ public class InventoryAccuracy
                 var trueLevel = sim.TrueLevelM(profile[i]);
                 if (Trace)
                 {
-                    Console.WriteLine(FormattableString.Invariant($"{i,6} truth {profile[i],10:0} est {e.MassKg,10:0} [{e.MassLow95Kg,10:0}, {e.MassHigh95Kg,10:0}] rate {e.RateKgPerS,7:0.0} {e.Quality} {e.QualityReason}"));
+                    Console.WriteLine(FormattableString.Invariant($"{i,6} truth {profile[i],10:0} est {e.MassKg,10:0} [{e.MassLow95Kg,10:0}, {e.MassHigh95Kg,10:0}] rate {e.RateKgPerS,7:0.0} floor {monitor.LastNetLoadKn:0} kN ring {monitor.LastWallLoadKn:0} kN below {monitor.LastBelowRingLoadKn:0} kN {e.Quality} {e.QualityReason}"));
                 }
 
                 evaluated.Add((

@@ -26,6 +26,28 @@ public sealed class InversionTests
         }
     }
 
+    [Theory]
+    [MemberData(nameof(Shapes))]
+    public void TheFloorLoadOfAMassIsTheLoadTheInversionTakesBackToThatMass(string shape)
+    {
+        var silo = TestSilos.AllShapes().Single(s => s.Name == shape).Silo;
+        var model = SiloModel.Create(silo, TestSilos.Wheat());
+        var p = model.Expected;
+        // Other properties: a lighter solid with more wall friction stands higher for the same mass.
+        var other = new SolidProperties(0.9 * p.UnitWeightKnM3, p.K, 1.3 * p.Mu);
+        var otherModel = model.WithExpected(other);
+        for (var i = 1; i <= 20; i++)
+        {
+            var mass = model.CapacityKg * i / 21;
+            Assert.Equal(model.Expect(model.StateAtMass(mass)).FloorLoadKn, model.FloorLoadAtMassKn(mass, p), 1e-9 * mass);
+            var load = model.FloorLoadAtMassKn(mass, other);
+            Assert.Equal(otherModel.Expect(otherModel.StateAtMass(mass)).FloorLoadKn, load, 1e-9 * mass);
+            var back = model.InvertFloorLoad(load, other);
+            Assert.True(back.HasLevel, $"{shape}: {mass} kg");
+            Assert.Equal(mass, back.MassKg, 1e-7 * mass);
+        }
+    }
+
     [Fact]
     public void ALoadAboveSaturationHasNoSolutionAndSaysSo()
     {
