@@ -1,4 +1,3 @@
-using MathNet.Numerics.RootFinding;
 using SiloWatch.Plant;
 
 namespace SiloWatch.Mechanics;
@@ -260,13 +259,34 @@ public sealed class SiloGeometry
             return volumeM3 >= 0;
         }
 
-        // Within the hopper the volume is a monotonic cubic in the level: bracketed Brent on [0, h_hopper].
-        var scale = atTransition;
-        if (!Brent.TryFindRoot(y => (VolumeAtLevel(y) - volumeM3) / scale, 0, HopperHeightM, 1e-12, 200, out levelM))
+        // Within the hopper the volume is a monotonic cubic in the level: Newton steps kept inside a shrinking
+        // bracket on [0, h_hopper], halving it when a step would leave it [D: safeguarded Newton; the "rtsafe" of
+        // Numerical Recipes, from memory]. No delegate: the inventory's hot path inverts floor loads in the hopper.
+        double lo = 0, hi = HopperHeightM;
+        var y = 0.5 * hi;
+        for (var i = 0; i < 200; i++)
         {
-            levelM = Bisect(y => VolumeAtLevel(y) - volumeM3, 0, HopperHeightM);
+            var f = VolumeAtLevel(y) - volumeM3;
+            if (f > 0)
+            {
+                hi = y;
+            }
+            else
+            {
+                lo = y;
+            }
+
+            if (Math.Abs(f) <= 1e-13 * atTransition || hi - lo <= 1e-13)
+            {
+                break;
+            }
+
+            var slope = VolumeSlopeM2(y);
+            var next = slope > 0 ? y - (f / slope) : double.NaN;
+            y = next > lo && next < hi ? next : 0.5 * (lo + hi);
         }
 
+        levelM = y;
         return true;
     }
 
@@ -329,27 +349,6 @@ public sealed class SiloGeometry
         // Hipped ridge of slope φ_r towards all walls [D]: volume tanφ_r·b²(3L − b)/12; square: a·tanφ_r/6.
         var l = Math.Max(lengthM, widthM);
         return _tanRepose * widthM * (3 * l - widthM) / (12.0 * l);
-    }
-
-    private static double Bisect(Func<double, double> f, double lo, double hi)
-    {
-        var flo = f(lo);
-        for (var i = 0; i < 200 && hi - lo > 1e-13; i++)
-        {
-            var mid = 0.5 * (lo + hi);
-            var fm = f(mid);
-            if (Math.Sign(fm) == Math.Sign(flo))
-            {
-                lo = mid;
-                flo = fm;
-            }
-            else
-            {
-                hi = mid;
-            }
-        }
-
-        return 0.5 * (lo + hi);
     }
 
     private static double Positive(double value, string key) =>

@@ -511,13 +511,13 @@ public sealed class SiloModel
 
         if (floorLoadKn <= 0)
         {
-            return new InversionResult(InversionStatus.Empty, 0, 0, 0, 0, 0, saturation, "no load on the floor: empty (or check the tare)");
+            return new InversionResult(InversionStatus.Empty, 0, 0, 0, 0, 0, saturation) with { FloorLoadKn = floorLoadKn, Properties = p, MaxLevelM = Geometry.MaxLevelM };
         }
 
         if (floorLoadKn >= saturation)
         {
-            return new InversionResult(InversionStatus.AboveSaturation, double.NaN, double.NaN, double.NaN, double.PositiveInfinity, double.NaN, saturation,
-                $"no solution: the load {floorLoadKn:0.#} kN is above saturation for these properties ({saturation:0.#} kN with γ {gamma:0.##} kN/m3, K·μ {p.KMu:0.###}); check K·μ, the unit weight and the load cells");
+            return new InversionResult(InversionStatus.AboveSaturation, double.NaN, double.NaN, double.NaN, double.PositiveInfinity, double.NaN, saturation)
+                with { FloorLoadKn = floorLoadKn, Properties = p, MaxLevelM = Geometry.MaxLevelM };
         }
 
         var atTransition = gamma * _volumeAtTransition;
@@ -527,7 +527,8 @@ public sealed class SiloModel
             var volume = floorLoadKn / gamma;
             Geometry.TryLevelAtVolume(volume, out var level);
             var slope = gamma * Geometry.VolumeSlopeM2(level);
-            return new InversionResult(InversionStatus.Solved, level, volume, volume * rho, slope > 0 ? 1.0 / slope : 0, 0, saturation, "");
+            return new InversionResult(InversionStatus.Solved, level, volume, volume * rho, slope > 0 ? 1.0 / slope : 0, 0, saturation)
+                with { FloorLoadKn = floorLoadKn, Properties = p, MaxLevelM = Geometry.MaxLevelM };
         }
 
         // Vertical section: F = A·[γz0 − (γz0 − q0)·e^(−z/z0)] + W_hopper, solved for z in closed form [D].
@@ -543,10 +544,8 @@ public sealed class SiloModel
         var dLevelDLoad = 1.0 / (_area * dPdz);
         var dLevelDKMu = dPdz0 / dPdz * z0 / p.KMu;
         var status = levelM > Geometry.MaxLevelM + 1e-9 ? InversionStatus.AboveFullLevel : InversionStatus.Solved;
-        var message = status == InversionStatus.AboveFullLevel
-            ? $"the load is above the expected load full to the eaves: the level {levelM:0.##} m is above the eaves ({Geometry.MaxLevelM:0.##} m): overfill, or the properties are off"
-            : "";
-        return new InversionResult(status, levelM, volumeM3, volumeM3 * rho, dLevelDLoad, dLevelDKMu, saturation, message);
+        return new InversionResult(status, levelM, volumeM3, volumeM3 * rho, dLevelDLoad, dLevelDKMu, saturation)
+            with { FloorLoadKn = floorLoadKn, Properties = p, MaxLevelM = Geometry.MaxLevelM };
     }
 
     /// <summary>EN 1991-4 characteristic loads on the vertical wall at a depth below the equivalent surface (see <see cref="CharacteristicProfile"/>).</summary>

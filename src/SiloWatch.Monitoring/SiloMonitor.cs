@@ -924,22 +924,12 @@ public sealed class SiloMonitor
         var dmdLnGamma = -(_model.FloorLoadAtMassKn(m, p with { UnitWeightKnM3 = p.UnitWeightKnM3 * (1 + h) }) - at) / h * dmdF;
         sysVarKg = (dmdF * dmdF * floorSysKn) + Math.Pow(dmdLnKMu * _kMuRelStd, 2) + Math.Pow(dmdLnGamma * gammaStd, 2);
         double up2 = Math.Pow(Z95 * dmdF, 2) * floorSysKn, down2 = up2;
-        foreach (var sign in (ReadOnlySpan<double>)[-1.0, 1.0])
+        for (var sign = -1.0; sign <= 1.0; sign += 2.0)
         {
             var pk = p.WithKMu(p.KMu * Math.Exp(sign * Z95 * _kMuRelStd));
             var pg = p with { UnitWeightKnM3 = p.UnitWeightKnM3 * (1 + (sign * Z95 * gammaStd)) };
-            foreach (var q in (ReadOnlySpan<SolidProperties>)[pk, pg])
-            {
-                var d = (at - _model.FloorLoadAtMassKn(m, q)) * dmdF;
-                if (d > 0)
-                {
-                    up2 += d * d;
-                }
-                else
-                {
-                    down2 += d * d;
-                }
-            }
+            AddToSide((at - _model.FloorLoadAtMassKn(m, pk)) * dmdF, ref up2, ref down2);
+            AddToSide((at - _model.FloorLoadAtMassKn(m, pg)) * dmdF, ref up2, ref down2);
         }
 
         up95Kg = Math.Sqrt(up2);
@@ -1048,26 +1038,13 @@ public sealed class SiloMonitor
         // The inversion is far from linear near saturation: the 95 % bounds come from inverting at the
         // 95 % values of K·μ and γ (each side combined in quadrature); past saturation the upper bound is open.
         double up2 = Math.Pow(Z95 * dmdF, 2) * sysVarKn, down2 = up2;
-        foreach (var sign in (ReadOnlySpan<double>)[-1.0, 1.0])
+        // Two sides, two properties, written out: a span of the properties built in the loop would be put on the heap.
+        for (var sign = -1.0; sign <= 1.0; sign += 2.0)
         {
-            var kFactor = Math.Exp(sign * Z95 * _kMuRelStd);
-            var gFactor = 1 + (sign * Z95 * gammaStd);
-            var pk = p.WithKMu(p.KMu * kFactor);
-            var pg = p with { UnitWeightKnM3 = p.UnitWeightKnM3 * gFactor };
-
-            foreach (var q in (ReadOnlySpan<SolidProperties>)[pk, pg])
-            {
-                var r = _model.InvertFloorLoad(floorKn, q);
-                var d = r.HasLevel ? r.MassKg - m0 : Math.Max(capacityKg * 1.5 - m0, 0);
-                if (d > 0)
-                {
-                    up2 += d * d;
-                }
-                else
-                {
-                    down2 += d * d;
-                }
-            }
+            var pk = p.WithKMu(p.KMu * Math.Exp(sign * Z95 * _kMuRelStd));
+            var pg = p with { UnitWeightKnM3 = p.UnitWeightKnM3 * (1 + (sign * Z95 * gammaStd)) };
+            AddToSide(Deviation(_model.InvertFloorLoad(floorKn, pk), m0, capacityKg), ref up2, ref down2);
+            AddToSide(Deviation(_model.InvertFloorLoad(floorKn, pg), m0, capacityKg), ref up2, ref down2);
         }
 
         up95Kg = _lastSysUp95Kg = Math.Sqrt(up2);
@@ -1084,6 +1061,23 @@ public sealed class SiloMonitor
         // A perturbed inversion past saturation: the derivative is unbounded; say so by the capacity per step.
         static double Slope(in InversionResult r, double m0, double step, double capacityKg) =>
             r.HasLevel ? (r.MassKg - m0) / step : capacityKg / step;
+
+        // The same past saturation: the upper side is open, taken as far as half again the capacity.
+        static double Deviation(in InversionResult r, double m0, double capacityKg) =>
+            r.HasLevel ? r.MassKg - m0 : Math.Max((capacityKg * 1.5) - m0, 0);
+    }
+
+    // A one-sided 95 % deviation adds to the upper bound's square when positive, else to the lower's.
+    private static void AddToSide(double deviation, ref double up2, ref double down2)
+    {
+        if (deviation > 0)
+        {
+            up2 += deviation * deviation;
+        }
+        else
+        {
+            down2 += deviation * deviation;
+        }
     }
 
     /// <param name="meanSysVar">Variance of the ring mean from thermal residuals and, for untared gauges, their zeros, microstrain².</param>

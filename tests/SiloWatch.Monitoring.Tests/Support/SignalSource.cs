@@ -115,6 +115,10 @@ public sealed class SignalSource(SiloRef silo, SiloModel model, int seed = 1)
         return t;
     }
 
+    /// <summary>The samples of <paramref name="seconds"/> scans once a second at a steady mass, built before use.</summary>
+    public TelemetrySample[] Samples(double massKg, long startMs, int seconds) =>
+        [.. Enumerable.Range(0, seconds).SelectMany(i => Scan(massKg, startMs + (i * 1000L)))];
+
     private double Gaussian()
     {
         var u1 = 1.0 - _random.NextDouble();
