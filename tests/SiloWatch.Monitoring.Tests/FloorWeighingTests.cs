@@ -126,7 +126,7 @@ public sealed class FloorWeighingTests
     {
         // The demo's state: nobody commanded a tare. The gauges read the wall's strain since the silo
         // was empty (their configured no-load output is the zero), so the ring can carry the wall share.
-        var (monitor, time, silo, model) = DemoPlant.Monitor("C1", new MonitoringOptions { FuseUntaredRing = true });
+        var (monitor, time, silo, model) = DemoPlant.Monitor("C1");
         var source = new SignalSource(silo, model);
         var mass = 0.6 * model.CapacityKg;
 
@@ -177,9 +177,9 @@ public sealed class FloorWeighingTests
     }
 
     [Fact]
-    public void ByDefaultAnUntaredRingIsLeftOutAndTheReasonSaysWhy()
+    public void WithUntaredFusionOffAnUntaredRingIsLeftOutAndTheReasonSaysWhy()
     {
-        var (monitor, time, silo, model) = DemoPlant.Monitor("C1");
+        var (monitor, time, silo, model) = DemoPlant.Monitor("C1", new MonitoringOptions { FuseUntaredRing = false });
         var source = new SignalSource(silo, model);
         var t = source.Run(monitor, time.GetUtcNow().ToUnixTimeMilliseconds(), 60, _ => 0.6 * model.CapacityKg);
         var e = monitor.Evaluate(t);
@@ -190,7 +190,7 @@ public sealed class FloorWeighingTests
         Assert.True(double.IsNaN(monitor.LastWallLoadKn));
 
         // A tare when empty (here: the same monitor tared at no load) lets the ring in.
-        var (tared, time2, _, _) = DemoPlant.Monitor("C1");
+        var (tared, time2, _, _) = DemoPlant.Monitor("C1", new MonitoringOptions { FuseUntaredRing = false });
         var source2 = new SignalSource(silo, model);
         var t2 = source2.Run(tared, time2.GetUtcNow().ToUnixTimeMilliseconds(), 20, _ => 0);
         tared.Tare("commissioning", t2);

@@ -25,6 +25,15 @@ public sealed class BridgesTests
     }
 
     [Fact]
+    public void AGaugesThermalOutputIsCountedFromItsOwnReferenceTemperature()
+    {
+        // The monitor compensates ThermalOutput × (T − ReferenceTemperatureC) (StrainConversion): the simulator's gauge must read the same.
+        Assert.Equal(0, Bridges.ThermalOutputMicro(1.5, 25, 25), 1e-12);
+        Assert.Equal(1.5 * 5, Bridges.ThermalOutputMicro(1.5, 30, 25), 1e-12);
+        Assert.Equal(1.5 * -5, Bridges.ThermalOutputMicro(1.5, 15, 20), 1e-12);
+    }
+
+    [Fact]
     public void ALoadCellAtCapacityAndReferenceTemperatureGivesItsRatedOutput()
     {
         var cell = new SensorOptions { RatedOutputMvPerV = 2.0, CapacityKn = 1000, ZeroOffsetMvPerV = 0.01, SpanFactor = 1, ReferenceTemperatureC = 20 };

@@ -59,6 +59,43 @@ public sealed class SolarPatternTests
     }
 
     [Fact]
+    public void TheSunsBowingBendsTheWallButLeavesTheRingsMeanAlone()
+    {
+        // An empty silo in full sun, no wind: what the axial ring reads, less each gauge's thermal output
+        // (1.5 µε/K from its 20 °C reference), is the bowing alone. Thermal stresses of an unloaded shell balance
+        // themselves round the circumference [D], so the mean (the membrane force) stays near zero while the
+        // first harmonic follows the sun; the six gauges alias the sixth harmonic of the lit half into the mean
+        // (2/(35π) of the peak against 1/π for the half-wave's mean [D, Fourier series]), well under 1.5 µε here.
+        var scenario = new ScenarioBuilder()
+            .StartingAt(new DateTimeOffset(2026, 6, 21, 9, 0, 0, TimeSpan.Zero))
+            .Lasting(TimeSpan.FromHours(3))
+            .WithFill("S1", 0)
+            .WithNoise(strainMicro: 0.1)
+            .WithWeather(w =>
+            {
+                w.SunriseHour = 5;
+                w.SunsetHour = 21;
+                w.SunWarmingK = 15;
+                w.Cloudiness = 0;
+                w.WindMeanMs = 0;
+                w.GustsPerHour = 0;
+            })
+            .Build();
+        scenario.SamplePeriod = TimeSpan.FromSeconds(10);
+        scenario.TruthInterval = TimeSpan.FromMinutes(10);
+        var run = StreamCollector.RunToEnd(TestPlant.Model(scenario));
+        var at = new DateTimeOffset(2026, 6, 21, 11, 50, 0, TimeSpan.Zero); // 12:50 local, the sun near south
+
+        var temps = run.Snapshot("S1", Temperatures, at);
+        var bow = run.Snapshot("S1", Axial, at).Select((v, k) => BridgeInverse.QuarterMicro(v, 2.1) - (1.5 * (temps[k] - 20))).ToArray();
+        var (mean, a1, _) = RingFit.FirstHarmonic(Angles, bow);
+
+        Assert.True(temps.Max() - temps.Min() > 5, $"the sun warms one side: {string.Join(", ", temps)} °C");
+        Assert.True(a1 > 5, $"A1 = {a1:F2} µε: the sun bends the wall");
+        Assert.True(Math.Abs(mean) < 1.5, $"ring mean {mean:F2} µε: the bowing carries no load");
+    }
+
+    [Fact]
     public void AtNightTheRingHasNoSolarPattern()
     {
         var scenario = new ScenarioBuilder()

@@ -29,6 +29,7 @@ public sealed class SiloSimulation
     private double _apexY;
     private double _rateJitter;
     private bool _shellInitialised;
+    private double _shellMeanC;
 
     public SiloSimulation(SiteOptions site, SiloOptions silo, Materials.MaterialProperties material, Scenario scenario, SiloSetup? setup, int seed)
     {
@@ -288,8 +289,14 @@ public sealed class SiloSimulation
             _shellC[key] = _shellC.TryGetValue(key, out var t) ? t + (a * (target - t)) : target;
         }
 
+        // The circumference's mean temperature, lagged alike (a lag commutes with the mean): the mean of
+        // max(0, cos(θ − θ_sun)) round the shell is 1/π [D], so the mean warming is the sun side's peak over π.
+        var meanTarget = ambient.AirC + (SunPath.ShellWarmingK(ambient.SunAzimuthDeg, ambient.SunAzimuthDeg, ambient.SunIntensity, _scenario.Weather) / Math.PI);
+        _shellMeanC = _shellInitialised ? _shellMeanC + (a * (meanTarget - _shellMeanC)) : meanTarget;
         _shellInitialised = true;
     }
+
+    private double ShellMeanC(AmbientState ambient) => _shellInitialised ? _shellMeanC : ambient.AirC;
 
     private double TemperatureAt(double angleDeg, AmbientState ambient) =>
         _shellC.TryGetValue((int)Math.Round(angleDeg), out var t) ? t : ambient.AirC;
@@ -371,11 +378,13 @@ public sealed class SiloSimulation
         var (axial, hoop) = WallStrainMicro(o.HeightM, s.AngleDeg, ambient);
         var temperature = TemperatureAt(s.AngleDeg, ambient);
         var strain = o.Kind == SensorKind.AxialStrain ? axial : hoop;
-        strain += Bridges.ThermalOutputMicro(o.ThermalOutputMicroPerK, temperature);
+        strain += Bridges.ThermalOutputMicro(o.ThermalOutputMicroPerK, temperature, o.ReferenceTemperatureC);
         if (o.Kind == SensorKind.AxialStrain)
         {
-            // The sunny side expands and the restrained shell bows: apparent axial strain ∝ local warming (n = 1 toward the sun).
-            strain += _scenario.Weather.SolarBowMicroPerK * (temperature - ambient.AirC);
+            // The sunny side expands and the restrained shell bows: apparent axial strain ∝ the local warming against
+            // the circumference's mean. The thermal stresses of an unloaded shell balance themselves, so the bowing
+            // adds nothing to the axial force round a ring (its mean is zero); it bends the wall, it carries no load [D].
+            strain += _scenario.Weather.SolarBowMicroPerK * (temperature - ShellMeanC(ambient));
         }
 
         strain += _scenario.Noise.StrainMicro * s.NoiseFactorAt(elapsed) * _noise.Gaussian();

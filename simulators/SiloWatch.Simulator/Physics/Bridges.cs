@@ -34,9 +34,12 @@ public static class Bridges
         return span + zero;
     }
 
-    /// <summary>Apparent strain of a gauge from its own thermal output, microstrain: ThermalOutput × (T − 20 °C) [datasheet convention].</summary>
-    public static double ThermalOutputMicro(double thermalOutputMicroPerK, double temperatureC) =>
-        thermalOutputMicroPerK * (temperatureC - 20);
+    /// <summary>
+    /// Apparent strain of a gauge from its own thermal output, microstrain: ThermalOutput × (T − T_ref), with
+    /// T_ref the gauge's calibration reference temperature (ReferenceTemperatureC; the monitor compensates from the same) [D].
+    /// </summary>
+    public static double ThermalOutputMicro(double thermalOutputMicroPerK, double temperatureC, double referenceTemperatureC) =>
+        thermalOutputMicroPerK * (temperatureC - referenceTemperatureC);
 }
 
 /// <summary>Membrane stresses to strains in a thin wall.</summary>
