@@ -93,7 +93,7 @@ public static class ScenarioAccuracyDriver
                     if (Trace == tracked.Silo.SiloId)
                     {
                         Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
-                            $"{tick.Time:HH:mm:ss} {tracked.Silo.SiloId} truth {truth.MassKg,10:0} est {estimate.MassKg,10:0} [{estimate.MassLow95Kg,10:0}, {estimate.MassHigh95Kg,10:0}] {estimate.Quality} {estimate.QualityReason}"));
+                            $"{tick.Time:HH:mm:ss} {tracked.Silo.SiloId} truth {truth.MassKg,10:0} est {estimate.MassKg,10:0} [{estimate.MassLow95Kg,10:0}, {estimate.MassHigh95Kg,10:0}] {estimate.Method} {estimate.Quality} {estimate.QualityReason}"));
                     }
                 }
             }

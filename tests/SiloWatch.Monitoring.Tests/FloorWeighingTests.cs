@@ -142,6 +142,27 @@ public sealed class FloorWeighingTests
     }
 
     [Fact]
+    public void ARingGaugeWithoutItsTemperatureIsLeftOutOfTheRing()
+    {
+        // A cold night, 15 K below the gauges' 20 °C reference, and no temperature sensor reporting: compensated at
+        // the reference instead, each gauge's thermal output (1.5 µε/K) would put some 450 t on C1's wall.
+        var (monitor, time, silo, model) = DemoPlant.Monitor("C1");
+        var source = new SignalSource(silo, model) { TemperatureC = 5 };
+        foreach (var s in silo.Sensors.Where(s => s.Options.Kind == Plant.SensorKind.Temperature))
+        {
+            source.Silent.Add(s.Id);
+        }
+
+        var mass = 0.6 * model.CapacityKg;
+        var t = source.Run(monitor, time.GetUtcNow().ToUnixTimeMilliseconds(), 60, _ => mass);
+        var e = monitor.Evaluate(t);
+
+        Assert.Equal("floor-janssen", e.Method);
+        Assert.Contains("wall ring unavailable", e.QualityReason, StringComparison.Ordinal);
+        Assert.True(Math.Abs(e.MassKg - mass) < 0.02 * model.CapacityKg, $"error {e.MassKg - mass:0} kg, {e.QualityReason}");
+    }
+
+    [Fact]
     public void AGaugesConfiguredNoLoadOutputIsItsZeroBeforeATare()
     {
         // Every ring gauge given a no-load output of 0.02 mV/V in its definition and in its signal: the
