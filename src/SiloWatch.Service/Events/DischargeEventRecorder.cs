@@ -37,6 +37,9 @@ public sealed class DischargeEventRecorder
     private readonly long _preStartMs;
     private readonly long _postEndMs;
 
+    // How far the inventory may wander by itself over a discharge before its figures are not those of a flow, share of capacity [a choice].
+    private const double FigureToleranceOfCapacity = 0.01;
+
     private long? _openEventId;
     private bool _resumed;
     private Tally _tally = new(0);
@@ -325,11 +328,10 @@ public sealed class DischargeEventRecorder
 
         var peak = d.Rings.Where(r => double.IsFinite(r.MaxA1Ratio)).OrderByDescending(r => r.MaxA1Ratio).FirstOrDefault();
         var peakRate = capture is null ? double.NaN : PeakRate(capture, d.OnsetMs, d.EndMs, (long)_options.PeakRateWindow.TotalMilliseconds);
-        if (!double.IsFinite(peakRate))
-        {
-            peakRate = Finite(-d.MeanRateKgPerS); // a flow shorter than the window: its mean is its peak
-            notes.Add("the flow was shorter than the peak-rate window: the peak rate is the mean rate");
-        }
+        // Only what a flow out of the silo can do is reported; otherwise the record says the inventory did not follow it.
+        var figures = DischargeFigures.Check(d.MassAtStartKg, d.MassAtEndKg, Math.Max(0, (d.EndMs - d.OnsetMs) / 1000.0), peakRate,
+            _options.PeakRateWindow.TotalSeconds, FigureToleranceOfCapacity * _model.CapacityKg);
+        notes.AddRange(figures.Notes);
 
         var record = new DischargeEventRecord
         {
@@ -339,9 +341,9 @@ public sealed class DischargeEventRecorder
             StartedMs = d.OnsetMs,
             EndedMs = d.EndMs,
             MassAtStartKg = Finite(d.MassAtStartKg),
-            MassOutKg = Finite(d.MassAtStartKg - d.MassAtEndKg),
-            MeanRateKgPerS = Finite(-d.MeanRateKgPerS),
-            PeakRateKgPerS = peakRate,
+            MassOutKg = figures.MassOutKg,
+            MeanRateKgPerS = figures.MeanRateKgPerS,
+            PeakRateKgPerS = figures.PeakRateKgPerS,
             MaxAsymmetryRatio = peak is null ? 0 : peak.MaxA1Ratio,
             AsymmetryDirectionDeg = peak is null ? 0 : Finite(peak.DirectionAtMaxDeg),
             MaxA2Ratio = MaxOf(d.Rings.Select(r => r.MaxA2Ratio)),
@@ -363,8 +365,16 @@ public sealed class DischargeEventRecorder
 
         _context.Outbound.Enqueue(new OutboundMessage(_context.EventsTopic, AlarmPayloads.Discharge(d, _openEventId ?? 0, _context.InstanceId),
             Retain: false, MqttQualityOfServiceLevel.AtLeastOnce));
-        _context.Logger.LogInformation("Discharge event {Id} of {Silo}: {MassOut:0} kg out, peak A1/A0 {A1:0.###} toward {Direction:0} deg, {Alarms} alarm(s) raised",
-            _openEventId, _silo.Key, record.MassOutKg, record.MaxAsymmetryRatio, record.AsymmetryDirectionDeg, record.AlarmsRaised);
+        if (figures.Known)
+        {
+            _context.Logger.LogInformation("Discharge event {Id} of {Silo}: {MassOut:0} kg out, peak A1/A0 {A1:0.###} toward {Direction:0} deg, {Alarms} alarm(s) raised",
+                _openEventId, _silo.Key, record.MassOutKg, record.MaxAsymmetryRatio, record.AsymmetryDirectionDeg, record.AlarmsRaised);
+        }
+        else
+        {
+            _context.Logger.LogWarning("Discharge event {Id} of {Silo}: mass out not known ({Why}), peak A1/A0 {A1:0.###} toward {Direction:0} deg, {Alarms} alarm(s) raised",
+                _openEventId, _silo.Key, figures.Notes[0], record.MaxAsymmetryRatio, record.AsymmetryDirectionDeg, record.AlarmsRaised);
+        }
         _openEventId = null;
         _resumed = false;
     }
