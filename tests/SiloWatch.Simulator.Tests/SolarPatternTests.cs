@@ -21,23 +21,7 @@ public sealed class SolarPatternTests
     [Fact]
     public void TheAxialRingsSolarPatternFollowsTheSunFromMorningToAfternoon()
     {
-        // Europe/London in June is UTC+1; sunrise 05:00 and sunset 21:00 local in this scenario.
-        var scenario = new ScenarioBuilder()
-            .StartingAt(new DateTimeOffset(2026, 6, 21, 4, 30, 0, TimeSpan.Zero))
-            .Lasting(TimeSpan.FromHours(12))
-            .WithFill("S1", 50)
-            .WithNoise(strainMicro: 0.3)
-            .WithWeather(w =>
-            {
-                w.SunriseHour = 5;
-                w.SunsetHour = 21;
-                w.SunWarmingK = 15;
-                w.Cloudiness = 0;
-            })
-            .Build();
-        scenario.SamplePeriod = TimeSpan.FromSeconds(10);
-        scenario.TruthInterval = TimeSpan.FromMinutes(10);
-        var run = StreamCollector.RunToEnd(TestPlant.Model(scenario));
+        var run = ClearDay(new DateTimeOffset(2026, 6, 21, 4, 30, 0, TimeSpan.Zero), TimeSpan.FromHours(12), fillPercent: 50, strainNoiseMicro: 0.3);
 
         var morning = new DateTimeOffset(2026, 6, 21, 8, 0, 0, TimeSpan.Zero);   // 09:00 local
         var afternoon = new DateTimeOffset(2026, 6, 21, 15, 0, 0, TimeSpan.Zero); // 16:00 local
@@ -66,24 +50,7 @@ public sealed class SolarPatternTests
         // themselves round the circumference [D], so the mean (the membrane force) stays near zero while the
         // first harmonic follows the sun; the six gauges alias the sixth harmonic of the lit half into the mean
         // (2/(35π) of the peak against 1/π for the half-wave's mean [D, Fourier series]), well under 1.5 µε here.
-        var scenario = new ScenarioBuilder()
-            .StartingAt(new DateTimeOffset(2026, 6, 21, 9, 0, 0, TimeSpan.Zero))
-            .Lasting(TimeSpan.FromHours(3))
-            .WithFill("S1", 0)
-            .WithNoise(strainMicro: 0.1)
-            .WithWeather(w =>
-            {
-                w.SunriseHour = 5;
-                w.SunsetHour = 21;
-                w.SunWarmingK = 15;
-                w.Cloudiness = 0;
-                w.WindMeanMs = 0;
-                w.GustsPerHour = 0;
-            })
-            .Build();
-        scenario.SamplePeriod = TimeSpan.FromSeconds(10);
-        scenario.TruthInterval = TimeSpan.FromMinutes(10);
-        var run = StreamCollector.RunToEnd(TestPlant.Model(scenario));
+        var run = ClearDay(new DateTimeOffset(2026, 6, 21, 9, 0, 0, TimeSpan.Zero), TimeSpan.FromHours(3), fillPercent: 0, strainNoiseMicro: 0.1, windless: true);
         var at = new DateTimeOffset(2026, 6, 21, 11, 50, 0, TimeSpan.Zero); // 12:50 local, the sun near south
 
         var temps = run.Snapshot("S1", Temperatures, at);
@@ -108,6 +75,32 @@ public sealed class SolarPatternTests
         var values = run.Snapshot("S1", Axial, scenario.Start!.Value + TimeSpan.FromMinutes(29)).Select(v => BridgeInverse.QuarterMicro(v, 2.1)).ToArray();
         var (_, a1, _) = RingFit.FirstHarmonic(Angles, values);
         Assert.True(a1 < 1.5, $"A1 = {a1:F2} µε at night");
+    }
+
+    // A clear June day: Europe/London is UTC+1, sunrise 05:00 and sunset 21:00 local, the sun warming its side by 15 K; samples every 10 s.
+    private static StreamCollector ClearDay(DateTimeOffset start, TimeSpan lasting, double fillPercent, double strainNoiseMicro, bool windless = false)
+    {
+        var scenario = new ScenarioBuilder()
+            .StartingAt(start)
+            .Lasting(lasting)
+            .WithFill("S1", fillPercent)
+            .WithNoise(strainMicro: strainNoiseMicro)
+            .WithWeather(w =>
+            {
+                w.SunriseHour = 5;
+                w.SunsetHour = 21;
+                w.SunWarmingK = 15;
+                w.Cloudiness = 0;
+                if (windless)
+                {
+                    w.WindMeanMs = 0;
+                    w.GustsPerHour = 0;
+                }
+            })
+            .Build();
+        scenario.SamplePeriod = TimeSpan.FromSeconds(10);
+        scenario.TruthInterval = TimeSpan.FromMinutes(10);
+        return StreamCollector.RunToEnd(TestPlant.Model(scenario));
     }
 
     private static double Phase(StreamCollector run, DateTimeOffset at)
