@@ -58,41 +58,9 @@ public sealed partial class TelemetryDecoder
         ref var root = ref _root;
         root = Slot.Empty(0);
         root.Length = p.Length;
-        var seen = Field.None;
-        i = SkipSpace(p, i + 1);
-        if (i < p.Length && p[i] == '}')
+        if (!TryReadMembers(p, ref i, ref root, ref message, isRoot: true, out var seen))
         {
-            i++;
-        }
-        else
-        {
-            while (true)
-            {
-                if (!TryReadName(p, ref i, out var field) || (field != Field.Other && (seen & field) != 0))
-                {
-                    return false;
-                }
-
-                seen |= field;
-                var read = field switch
-                {
-                    Field.Samples => TryReadSamples(p, ref i, ref message),
-                    Field.Pub => TryReadPublisher(p, ref i, ref message),
-                    Field.Seq => TryReadSeq(p, ref i, ref message),
-                    Field.Ts => TryReadTimestamp(p, ref i, out message.BatchTs, out message.BatchTsMs),
-                    Field.Other => TrySkipScalar(p, ref i),
-                    _ => TryReadSampleField(p, ref i, field, ref root),
-                };
-                if (!read || !TryReadSeparator(p, ref i, (byte)'}', out var end))
-                {
-                    return false;
-                }
-
-                if (end)
-                {
-                    break;
-                }
-            }
+            return false;
         }
 
         // A batch with sample fields at its top level is a structural error: the general path words it.
@@ -137,7 +105,7 @@ public sealed partial class TelemetryDecoder
             }
 
             ref var slot = ref _slots[count - 1];
-            if (!TryReadSample(p, ref i, ref slot) || !TryReadSeparator(p, ref i, (byte)']', out var end))
+            if (!TryReadSample(p, ref i, ref slot, ref message) || !TryReadSeparator(p, ref i, (byte)']', out var end))
             {
                 return false;
             }
@@ -150,7 +118,7 @@ public sealed partial class TelemetryDecoder
         }
     }
 
-    private bool TryReadSample(ReadOnlySpan<byte> p, ref int i, ref Slot slot)
+    private bool TryReadSample(ReadOnlySpan<byte> p, ref int i, ref Slot slot, ref MessageInfo message)
     {
         if (i >= p.Length || p[i] != '{')
         {
@@ -158,44 +126,64 @@ public sealed partial class TelemetryDecoder
         }
 
         slot = Slot.Empty(i);
-        var seen = Field.None;
-        i = SkipSpace(p, i + 1);
-        if (i < p.Length && p[i] == '}')
+        if (!TryReadMembers(p, ref i, ref slot, ref message, isRoot: false, out _))
         {
-            i++;
-        }
-        else
-        {
-            while (true)
-            {
-                if (!TryReadName(p, ref i, out var field))
-                {
-                    return false;
-                }
-
-                // pub, seq and samples mean nothing inside a sample: skipped there, as any other field.
-                field = field is Field.Pub or Field.Seq or Field.Samples ? Field.Other : field;
-                if (field != Field.Other && (seen & field) != 0)
-                {
-                    return false;
-                }
-
-                seen |= field;
-                if (!TryReadSampleField(p, ref i, field, ref slot) || !TryReadSeparator(p, ref i, (byte)'}', out var end))
-                {
-                    return false;
-                }
-
-                if (end)
-                {
-                    break;
-                }
-            }
+            return false;
         }
 
         slot.Length = i - slot.Start;
         CheckFields(ref slot, p);
         return true;
+    }
+
+    /// <summary>
+    /// The members of the object whose '{' the position is on, through its '}'. At the root the
+    /// message fields go to <paramref name="message"/> and the sample fields (single-sample form) to
+    /// <paramref name="slot"/>; inside a sample pub, seq and samples mean nothing and are skipped as
+    /// any other field. False for a known field given twice (the general path decides which counts).
+    /// </summary>
+    private bool TryReadMembers(ReadOnlySpan<byte> p, ref int i, ref Slot slot, ref MessageInfo message, bool isRoot, out Field seen)
+    {
+        seen = Field.None;
+        i = SkipSpace(p, i + 1);
+        if (i < p.Length && p[i] == '}')
+        {
+            i++;
+            return true;
+        }
+
+        while (true)
+        {
+            if (!TryReadName(p, ref i, out var field))
+            {
+                return false;
+            }
+
+            field = !isRoot && field is Field.Pub or Field.Seq or Field.Samples ? Field.Other : field;
+            if (field != Field.Other && (seen & field) != 0)
+            {
+                return false;
+            }
+
+            seen |= field;
+            var read = field switch
+            {
+                Field.Samples => TryReadSamples(p, ref i, ref message),
+                Field.Pub => TryReadPublisher(p, ref i, ref message),
+                Field.Seq => TryReadSeq(p, ref i, ref message),
+                Field.Ts when isRoot => TryReadTimestamp(p, ref i, out message.BatchTs, out message.BatchTsMs),
+                _ => TryReadSampleField(p, ref i, field, ref slot),
+            };
+            if (!read || !TryReadSeparator(p, ref i, (byte)'}', out var end))
+            {
+                return false;
+            }
+
+            if (end)
+            {
+                return true;
+            }
+        }
     }
 
     private bool TryReadSampleField(ReadOnlySpan<byte> p, ref int i, Field field, ref Slot slot)
