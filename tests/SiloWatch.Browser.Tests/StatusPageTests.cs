@@ -22,25 +22,16 @@ public sealed class StatusPageTests(ITestOutputHelper output)
     [Fact]
     public async Task TheLivePageShowsChangingValuesAndAnAuthorisedOperatorAcknowledgesARealAlarm()
     {
-        var chromium = HeadlessChromium.Locate();
-        if (chromium is null)
+        var password = Convert.ToBase64String(RandomNumberGenerator.GetBytes(18));
+        await using var opened = await OverfillPage.OpenAsync(
+            ("StatusPage:Users:0:Name", "op-anna"),
+            ("StatusPage:Users:0:PasswordHash", OperatorPasswords.Hash(password, iterations: 100_000)));
+        if (opened is null)
         {
             return;
         }
 
-        // A real overfill alarm from real data: S1 starts 85 % full in this scenario, its limit is lowered to 50 % for the test.
-        var plant = LiveService.PlantWithLimit("S1", "OverfillPercent", 50);
-        var password = Convert.ToBase64String(RandomNumberGenerator.GetBytes(18));
-        await using var service = await LiveService.StartAsync("eccentric-discharge.json", speed: 5, plant,
-            ("StatusPage:Users:0:Name", "op-anna"),
-            ("StatusPage:Users:0:PasswordHash", OperatorPasswords.Hash(password, iterations: 100_000)));
-
-        using var playwright = await Playwright.CreateAsync();
-        await using var browser = await HeadlessChromium.LaunchAsync(playwright, chromium);
-        var page = await browser.NewPageAsync(new() { ViewportSize = new() { Width = 1400, Height = 1000 } });
-        var errors = new List<string>();
-        page.PageError += (_, e) => errors.Add(e);
-        await page.GotoAsync(service.BaseAddress.ToString());
+        var (service, page, errors) = (opened.Service, opened.Page, opened.Errors);
 
         // Live: the stream connects and the mass of S1 changes without a reload.
         await Assertions.Expect(page.Locator("#link")).ToHaveAttributeAsync("data-state", "live", new() { Timeout = 30_000 });
@@ -58,6 +49,12 @@ public sealed class StatusPageTests(ITestOutputHelper output)
         var row = page.Locator($"tr[data-alarm='{Alarm}']");
         await Assertions.Expect(row).ToHaveAttributeAsync("data-state", "unacknowledged", new() { Timeout = 30_000 });
         await Assertions.Expect(row.Locator("button.ack")).ToHaveCountAsync(0);
+
+        // One alarm is no flood: the site row says so.
+        var siteRow = page.Locator("tr[data-site='brackenford']");
+        await Assertions.Expect(siteRow).ToHaveAttributeAsync("data-flood", "false");
+        await Assertions.Expect(siteRow.Locator("td.flood")).ToHaveTextAsync("no alarm flood");
+        await Assertions.Expect(siteRow.Locator("td.silo-count")).ToHaveTextAsync("4");
         using (var http = new HttpClient { BaseAddress = service.BaseAddress })
         {
             var anonymous = await http.PostAsync($"api/alarms/brackenford/S1/overfill/ack", new StringContent("{}"));
@@ -96,6 +93,88 @@ public sealed class StatusPageTests(ITestOutputHelper output)
         output.WriteLine($"screenshots in {folder}");
         Assert.True(new FileInfo(shot).Length > 10_000, "the screenshot is not empty");
         Assert.Empty(errors);
+    }
+
+    [Fact]
+    public async Task ASiteInAnAlarmFloodIsShownInItsRowWithTheCountOfAlarms()
+    {
+        // The flood threshold lowered to no activation at all, so that S1's real overfill alarm floods the site
+        // (the window is on the samples' clock, long enough that the flood does not end during the test).
+        await using var opened = await OverfillPage.OpenAsync(("Alarms:FloodCount", "0"), ("Alarms:FloodEndCount", "0"), ("Alarms:FloodWindow", "01:00:00"));
+        if (opened is null)
+        {
+            return;
+        }
+
+        var (service, page, errors) = (opened.Service, opened.Page, opened.Errors);
+
+        var siteRow = page.Locator("tr[data-site='brackenford']");
+        await Assertions.Expect(siteRow).ToHaveAttributeAsync("data-flood", "true", new() { Timeout = 30_000 });
+        await Assertions.Expect(siteRow.Locator("td.flood")).ToHaveTextAsync(
+            new System.Text.RegularExpressions.Regex(@"^IN FLOOD: [1-9]\d* alarms within 60 min, since \d{4}-\d\d-\d\d \d\d:\d\d:\d\dZ\. Work from the highest priority down\.$"));
+
+        // The page shows what the engine's shared flood count says, and the API carries it for other clients.
+        var flood = service.Services.GetRequiredService<SiloWatch.Service.Alarms.SiloAlarmsFactory>().Floods.Active("brackenford");
+        Assert.NotNull(flood);
+        Assert.True(flood.Value >= 1, $"flood count {flood.Value}");
+        using var http = new HttpClient { BaseAddress = service.BaseAddress };
+        using var status = System.Text.Json.JsonDocument.Parse(await http.GetStringAsync("api/status"));
+        var site = Assert.Single(status.RootElement.GetProperty("sites").EnumerateArray());
+        Assert.Equal("brackenford", site.GetProperty("site").GetString());
+        Assert.True(site.GetProperty("flood").GetBoolean());
+        Assert.True(site.GetProperty("floodAlarms").GetDouble() >= 1);
+        Assert.Equal(4, site.GetProperty("silos").GetInt32());
+        Assert.Empty(errors);
+    }
+
+    /// <summary>
+    /// The status page in headless Chromium, served by the running service with a real overfill alarm from real data:
+    /// S1 starts 85 % full in the scenario, its limit is lowered to 50 % for the test. Script errors are collected.
+    /// </summary>
+    private sealed class OverfillPage : IAsyncDisposable
+    {
+        private readonly IPlaywright _playwright;
+        private readonly IBrowser _browser;
+
+        private OverfillPage(LiveService service, IPlaywright playwright, IBrowser browser, IPage page)
+        {
+            Service = service;
+            _playwright = playwright;
+            _browser = browser;
+            Page = page;
+            page.PageError += (_, e) => Errors.Add(e);
+        }
+
+        public LiveService Service { get; }
+
+        public IPage Page { get; }
+
+        public List<string> Errors { get; } = [];
+
+        /// <summary>Null when there is no Chromium and servers are not required.</summary>
+        public static async Task<OverfillPage?> OpenAsync(params (string Key, string Value)[] settings)
+        {
+            var chromium = HeadlessChromium.Locate();
+            if (chromium is null)
+            {
+                return null;
+            }
+
+            var service = await LiveService.StartAsync("eccentric-discharge.json", speed: 5, LiveService.PlantWithLimit("S1", "OverfillPercent", 50), settings);
+            var playwright = await Playwright.CreateAsync();
+            var browser = await HeadlessChromium.LaunchAsync(playwright, chromium);
+            var opened = new OverfillPage(service, playwright, browser,
+                await browser.NewPageAsync(new() { ViewportSize = new() { Width = 1400, Height = 1000 } }));
+            await opened.Page.GotoAsync(service.BaseAddress.ToString());
+            return opened;
+        }
+
+        public async ValueTask DisposeAsync()
+        {
+            await _browser.DisposeAsync();
+            _playwright.Dispose();
+            await Service.DisposeAsync();
+        }
     }
 
     private static async Task WaitUntilAsync(Func<Task<bool>> condition, string what)
