@@ -14,7 +14,7 @@ namespace SiloWatch.Messaging;
 /// <see cref="TelemetryRejection"/> with a specific <see cref="RejectReason"/>, and the good
 /// samples of a batch are delivered even when others in it are rejected.
 /// </summary>
-public sealed partial class TelemetryDecoder
+public sealed class TelemetryDecoder
 {
     private const int MaxIdBytes = 64;     // ids are at most 48 characters (PlantValidator); room for a few escapes
     private const int MaxPublisherBytes = 64;
@@ -83,11 +83,7 @@ public sealed partial class TelemetryDecoder
         var message = new MessageInfo();
         try
         {
-            if (!FastPathEnabled || !TryParseFast(payload, ref message))
-            {
-                message = new MessageInfo();
-                Parse(payload, ref message);
-            }
+            Parse(payload, ref message);
         }
         catch (JsonException ex)
         {

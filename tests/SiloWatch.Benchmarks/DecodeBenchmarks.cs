@@ -16,7 +16,6 @@ namespace SiloWatch.Benchmarks;
 /// <see cref="SamplesPerMessage"/> samples; the "Samples/s" column is samples per op / mean.
 /// Goal: at least 2,000,000 samples/s per core on 50-sample batches. Payloads cycle through 4096
 /// increasing seqs so the sequence check sees in-order traffic (one Reset per wrap).
-/// <see cref="FastPath"/> false forces the decoder's general path (Utf8JsonReader), for comparison.
 /// </summary>
 [MemoryDiagnoser]
 [Config(typeof(SamplesPerSecondConfig))]
@@ -38,10 +37,6 @@ public class DecodeBenchmarks
     [Params(1, 50)]
     public int SamplesPerMessage { get; set; }
 
-    /// <summary>True = the decoder as the service runs it; false = its general path only.</summary>
-    [Params(true, false)]
-    public bool FastPath { get; set; }
-
     [GlobalSetup]
     public void Setup()
     {
@@ -53,23 +48,18 @@ public class DecodeBenchmarks
 
         _registry = new PlantRegistry(plant);
         _topics = new TopicScheme("silowatch");
-        _decoders = [.. _registry.Silos.Select(s => new TelemetryDecoder(s, new TelemetryDecoderOptions()) { FastPathEnabled = FastPath })];
+        _decoders = [.. _registry.Silos.Select(s => new TelemetryDecoder(s, new TelemetryDecoderOptions()))];
         _topic = _topics.Telemetry("brackenford", "S1");
         var ts = new DateTimeOffset(2026, 12, 1, 10, 15, 2, 250, TimeSpan.Zero);
         _nowMs = ts.ToUnixTimeMilliseconds() + 1000;
         _payloads = [.. Enumerable.Range(1, Distinct).Select(seq => Payload(seq, ts))];
 
         // A benchmark of rejections would flatter the figures: every sample must be accepted.
-        var probe = new TelemetryDecoder(_registry.Silos[0], new TelemetryDecoderOptions()) { FastPathEnabled = FastPath };
+        var probe = new TelemetryDecoder(_registry.Silos[0], new TelemetryDecoderOptions());
         var check = probe.Decode(_payloads[0], _nowMs, _receiver);
         if (check.Accepted != SamplesPerMessage || _receiver.Rejected != 0)
         {
             throw new InvalidOperationException($"benchmark payload not fully accepted: {check}");
-        }
-
-        if (probe.FastPathMessages != (FastPath ? 1 : 0))
-        {
-            throw new InvalidOperationException($"benchmark payload did not take the {(FastPath ? "fast" : "general")} path");
         }
     }
 
