@@ -55,6 +55,18 @@ public sealed class SiloPipeline : ITelemetryReceiver
     /// <summary>The silo's wall watch and alarm engine; null when the service runs without them.</summary>
     public SiloAlarms? Alarms { get; private set; }
 
+    /// <summary>True when the evaluation follows the samples' own time (replays): the worker then evaluates on its publish interval only.</summary>
+    public bool FollowsSampleTime => Alarms is { FollowSamples: true };
+
+    /// <summary>True when samples reached the monitor since the last evaluation.</summary>
+    public bool HasUnevaluatedSamples { get; private set; }
+
+    /// <summary>The worker's schedule: service-clock time of the silo's last evaluation (worker only).</summary>
+    internal long EvaluatedAtMs { get; set; } = long.MinValue;
+
+    /// <summary>The worker's schedule: the silo waits for its minimum evaluation interval (worker only).</summary>
+    internal bool Held { get; set; }
+
     /// <summary>Attaches the wall watch and alarms (before the workers start).</summary>
     public void AttachAlarms(SiloAlarms alarms) => Alarms = alarms ?? throw new ArgumentNullException(nameof(alarms));
 
@@ -104,6 +116,7 @@ public sealed class SiloPipeline : ITelemetryReceiver
     private InventoryEstimate Evaluate(long nowMs, string instanceId)
     {
         _lastEvaluatedMs = nowMs;
+        HasUnevaluatedSamples = false;
         var estimate = Monitor.Evaluate(nowMs);
         LastEstimate = estimate;
         Span<double> fields =
@@ -186,6 +199,7 @@ public sealed class SiloPipeline : ITelemetryReceiver
     void ITelemetryReceiver.OnSample(in TelemetrySample sample)
     {
         Monitor.OnSample(sample);
+        HasUnevaluatedSamples = true;
         if (sample.TimestampMs > _newestSampleMs)
         {
             _newestSampleMs = sample.TimestampMs;
