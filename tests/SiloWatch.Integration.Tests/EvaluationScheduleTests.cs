@@ -132,6 +132,33 @@ public sealed class EvaluationScheduleTests : IAsyncDisposable
         Assert.Equal(19, States("S1").Count(s => s.SampleMs == s.EvaluatedMs));
     }
 
+    [Fact]
+    public async Task ASilosOpenIntervalsAreWrittenOnceItsFeedIsIdleNotWhileItsMessagesWaitInTheQueue()
+    {
+        var pipeline = _ingest.Pipelines.Single(p => p.Silo.Key == "brackenford/S1");
+        var sink = (SiloWatch.Storage.IIntervalCheckpoint)_app.Services.GetRequiredService<SiloWatch.Storage.ITimeSeriesSink>();
+        var series = _app.Services.GetRequiredService<SiloWatch.Storage.SeriesCatalog>().Sensor(pipeline.Silo.Index, pipeline.Silo.Sensors.Single(s => s.Id == "LC1").Index);
+        await StepToAsync(Start.AddMilliseconds(1100));
+        await SendAsync("S1");
+        Assert.True(sink.CaptureInterval(series)?.Dirty, "LC1's second is open with the message's sample");
+
+        // A message of S1 waits in the queue while its worker is busy elsewhere: five seconds pass on the clock.
+        pipeline.Enqueuing();
+        for (var t = 2000; t <= 6000; t += PublishIntervalMs)
+        {
+            await StepToAsync(Start.AddMilliseconds(t));
+            await WaitUntilDoneWithAsync(Start.AddMilliseconds(t));
+        }
+
+        Assert.True(sink.CaptureInterval(series)?.Dirty, "LC1's second is still open while a message of S1 is queued");
+
+        // The queue is empty again: the next clock evaluation finds the feed idle and writes the interval.
+        pipeline.Dequeued();
+        await StepToAsync(Start.AddMilliseconds(7000));
+        await WaitUntilDoneWithAsync(Start.AddMilliseconds(7000));
+        Assert.False(sink.CaptureInterval(series)?.Dirty, "LC1's second written once S1 is idle");
+    }
+
     /// <summary>Sends one message of the silo's load cells stamped now, and waits until the worker has processed it.</summary>
     private async Task<long> SendAsync(string silo)
     {
@@ -148,6 +175,7 @@ public sealed class EvaluationScheduleTests : IAsyncDisposable
         });
         var processed = Worker.MessagesProcessed;
         var message = IngestMessage.Copy(pipeline, new ReadOnlySequence<byte>(Encoding.UTF8.GetBytes(json)), now, ticket: null);
+        pipeline.Enqueuing();
         await Worker.Writer.WriteAsync(message);
         await WaitForAsync(() => Worker.MessagesProcessed > processed, $"message {seq} of {silo} processed");
         Assert.True(pipeline.SamplesAccepted >= cells.Count * seq, $"{silo}: the samples of message {seq} accepted");
@@ -183,6 +211,10 @@ public sealed class EvaluationScheduleTests : IAsyncDisposable
             _time.Advance(at - _time.GetUtcNow());
         }
     }
+
+    /// <summary>Waits until the worker has done what was due at <paramref name="at"/> and waits for something later.</summary>
+    private Task WaitUntilDoneWithAsync(DateTimeOffset at) =>
+        WaitForAsync(() => Worker.WaitingUntil is { } w && w > at, $"the worker done with {at:O}");
 
     /// <summary>Waits until the worker waits for its next due moment (<paramref name="until"/> when given): advancing the clock then wakes it.</summary>
     private Task WaitUntilWaitingAsync(DateTimeOffset? until) =>

@@ -165,6 +165,8 @@ public sealed class PartitionWorker
                 finally
                 {
                     message.Release();
+                    pipeline.Dequeued();
+                    pipeline.LastProcessedMs = NowMs();
                 }
 
                 if (message.Ticket is { } ticket)
@@ -259,6 +261,7 @@ public sealed class PartitionWorker
         while (_timed.TryPeek(out var pipeline, out var due) && due <= nowMs)
         {
             _timed.Dequeue();
+            pipeline.CloseIdleIntervals(nowMs);
             var dueMs = pipeline.EvaluatedAtMs + _publishIntervalMs;
             if (dueMs <= nowMs)
             {

@@ -40,6 +40,51 @@ public sealed class SiloPipeline : ITelemetryReceiver
         _rejectLog = rejectLog;
         _deadLetterTopic = topics.DeadLetter(silo.SiteId, silo.SiloId);
         _stateTopic = topics.State(silo.SiteId, silo.SiloId);
+        if (sink is IIdleIntervalClose idle)
+        {
+            // This silo's worker knows when its feed is idle (nothing queued, nothing processed for a while);
+            // a wall-clock timer would also close the intervals of a worker stalled with messages queued.
+            _idleClose = idle;
+            foreach (var sensor in silo.Sensors)
+            {
+                idle.CloseIdleByCaller(series.Sensor(silo.Index, sensor.Index));
+            }
+
+            idle.CloseIdleByCaller(series.Estimate(silo.Index));
+        }
+    }
+
+    private readonly IIdleIntervalClose? _idleClose;
+    private int _queued;
+
+    /// <summary>Messages of this silo routed to its worker's queue and not yet processed (any thread).</summary>
+    public int Queued => Volatile.Read(ref _queued);
+
+    /// <summary>A message of this silo is on its way to the worker's queue (the receive callback, before writing it).</summary>
+    public void Enqueuing() => Interlocked.Increment(ref _queued);
+
+    /// <summary>A message counted by <see cref="Enqueuing"/> was processed, dropped or not taken.</summary>
+    public void Dequeued() => Interlocked.Decrement(ref _queued);
+
+    /// <summary>The worker's clock when it last processed a message of this silo (worker only).</summary>
+    internal long LastProcessedMs { get; set; } = long.MinValue;
+
+    /// <summary>
+    /// Writes the open downsampling intervals of the silo's sensors once its feed is really idle:
+    /// nothing queued for it and nothing processed for two intervals of the worker's clock. Worker only.
+    /// </summary>
+    public void CloseIdleIntervals(long nowMs)
+    {
+        if (_idleClose is null || Queued > 0 || LastProcessedMs == long.MinValue)
+        {
+            return;
+        }
+
+        var silent = TimeSpan.FromMilliseconds(nowMs - LastProcessedMs);
+        foreach (var sensor in Silo.Sensors)
+        {
+            _idleClose.CloseIfIdle(_series.Sensor(Silo.Index, sensor.Index), silent);
+        }
     }
 
     public SiloRef Silo { get; }

@@ -156,6 +156,7 @@ public sealed class TelemetryIngest
 
         var message = IngestMessage.Copy(pipeline, e.ApplicationMessage.Payload, receivedMs, ticket);
         var writer = _writerBySilo[pipeline.Silo.Index];
+        pipeline.Enqueuing();
         if (writer.TryWrite(message))
         {
             return false;
@@ -163,6 +164,7 @@ public sealed class TelemetryIngest
 
         if (_options.QueueFullMode == QueueFullMode.Drop)
         {
+            pipeline.Dequeued();
             _counters.QueueDroppedOne();
             message.Release();
             _rejectLog.Warn("queue-full", pipeline.Silo.SiteId, pipeline.Silo.SiloId, null, "partition queue full: message dropped");
@@ -177,6 +179,7 @@ public sealed class TelemetryIngest
         catch (System.Threading.Channels.ChannelClosedException)
         {
             // Stopping: not taken, so not acknowledged; the broker sends it again to the session.
+            pipeline.Dequeued();
             message.Release();
             _checkpoints.Acks.Abandon(ticket);
         }
