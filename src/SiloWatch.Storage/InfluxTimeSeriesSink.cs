@@ -34,7 +34,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
     private readonly InfluxDBClient _client;
     private readonly WriteApiAsync _writeApi;
     private readonly ResiliencePipeline _retry;
-    private readonly PointBuffer _buffer;
+    private readonly BufferedSinkFront _front;
     private readonly DiskSpool _spool;
     private readonly TextBuffer _format = new(64 * 1024);
     private readonly CancellationTokenSource _hardStop = new();
@@ -44,14 +44,10 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
     private int _probeFailures;
     private DateTimeOffset _nextProbeUtc;
     private int _spoolAlarm;
-    private long _written;
     private long _spooled;
     private long _replayed;
     private long _rejected;
-    private long _skipped;
     private long _lost;
-    private long _lastStoredUnixMs = -1;
-    private volatile string? _lastError;
     private readonly string _displayUrl;
 
     /// <param name="token">The API token; null reads it through <see cref="TokenSource"/>.</param>
@@ -105,48 +101,30 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
 
         _retry = builder.Build();
         _spool = new DiskSpool(options.SpoolDirectory, options.SpoolMaxBytes, logger);
-        _buffer = new PointBuffer(options.BatchSize, options.BufferCapacityPoints, options.FlushInterval, timeProvider, SpillToSpool);
+        _front = new BufferedSinkFront(options, timeProvider, SpillToSpool);
         UpdateSpoolAlarm();
         _displayUrl = new Uri(options.Url).GetComponents(UriComponents.SchemeAndServer | UriComponents.Path, UriFormat.UriEscaped);
         LogStarted(_logger, _displayUrl, options.Bucket, _spool.DirectoryPath);
         _writer = Task.Run(RunAsync);
     }
 
-    public StorageHealth Health => new()
+    public StorageHealth Health => _front.Health("influx", _reachable) with
     {
-        Backend = "influx",
-        StoreReachable = _reachable,
-        BufferedPoints = _buffer.BufferedPoints,
-        BufferCapacityPoints = _buffer.CapacityPoints,
-        WrittenPoints = Interlocked.Read(ref _written),
         SpooledPoints = Interlocked.Read(ref _spooled),
         ReplayedPoints = Interlocked.Read(ref _replayed),
-        OverflowPoints = _buffer.OverflowPoints,
         SpoolBytes = _spool.Bytes,
         SpoolMaxBytes = _spool.MaxBytes,
         SpoolNearlyFull = Volatile.Read(ref _spoolAlarm) == 1,
         DiscardedPoints = _spool.DiscardedPoints + Interlocked.Read(ref _lost),
         RejectedPoints = Interlocked.Read(ref _rejected),
-        SkippedNonFinitePoints = Interlocked.Read(ref _skipped),
-        LastStoredUtc = Interlocked.Read(ref _lastStoredUnixMs) is var ms and >= 0 ? DateTimeOffset.FromUnixTimeMilliseconds(ms) : null,
-        LastError = _lastError,
     };
 
     /// <summary>True when the spool holds points not yet replayed.</summary>
     public bool HasSpooledPoints => !_spool.IsEmpty;
 
-    public void Write(SeriesKey series, long timestampMs, ReadOnlySpan<double> values)
-    {
-        ArgumentNullException.ThrowIfNull(series);
-        if (values.Length != series.FieldNames.Count)
-        {
-            throw new ArgumentException($"{series.Measurement} takes {series.FieldNames.Count} values, got {values.Length}", nameof(values));
-        }
+    public void Write(SeriesKey series, long timestampMs, ReadOnlySpan<double> values) => _front.Write(series, timestampMs, values);
 
-        _buffer.Add(series, timestampMs, values);
-    }
-
-    public Task FlushAsync(CancellationToken ct) => _buffer.FlushAsync(ct);
+    public Task FlushAsync(CancellationToken ct) => _front.FlushAsync(ct);
 
     /// <summary>
     /// Stops: what is buffered is sent once (no retries) or else spooled; the spool is left for the
@@ -160,7 +138,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         }
 
         _stopping = true;
-        _buffer.Complete();
+        _front.Complete();
         try
         {
             await _writer.WaitAsync(_options.RequestTimeout + TimeSpan.FromSeconds(5), _timeProvider).ConfigureAwait(false);
@@ -174,24 +152,24 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         _spool.Dispose();
         _client.Dispose();
         _hardStop.Dispose();
-        _buffer.Dispose();
+        _front.Dispose();
     }
 
     private async Task RunAsync()
     {
-        var reader = _buffer.Reader;
+        var reader = _front.Reader;
         while (true)
         {
             while (reader.TryRead(out var item))
             {
                 try
                 {
-                    await HandleAsync(item).ConfigureAwait(false);
+                    await _front.HandleAsync(item, SendOrSpoolAsync).ConfigureAwait(false);
                 }
                 catch (Exception ex)
                 {
                     // A bug must not stop the writer: later batches and flushes still need it.
-                    _lastError = Describe(ex);
+                    _front.LastError = Describe(ex);
                     LogWriterFailed(_logger, ex);
                 }
             }
@@ -225,19 +203,12 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         }
     }
 
-    private async Task HandleAsync(object item)
+    private async Task SendOrSpoolAsync(PointBatch batch)
     {
-        if (item is FlushMarker marker)
-        {
-            marker.Complete();
-            return;
-        }
-
-        var batch = (PointBatch)item;
         try
         {
             var lines = batch.Format(_format, out var skipped);
-            Interlocked.Add(ref _skipped, skipped);
+            _front.Skipped(skipped);
             if (lines == 0)
             {
                 return;
@@ -253,7 +224,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
             switch (await SendAsync(text, withRetry: !_stopping).ConfigureAwait(false))
             {
                 case SendOutcome.Stored:
-                    Interlocked.Add(ref _written, lines);
+                    _front.Stored(lines);
                     break;
                 case SendOutcome.Rejected:
                     Reject(text, lines);
@@ -267,13 +238,9 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         catch (Exception ex) when (ex is IOException or UnauthorizedAccessException)
         {
             // The spool itself failed (disk full, permissions): nothing else can hold these points.
-            _lastError = Describe(ex);
+            _front.LastError = Describe(ex);
             Interlocked.Add(ref _lost, batch.Count);
             LogSpoolFailed(_logger, batch.Count, ex);
-        }
-        finally
-        {
-            _buffer.Release(batch);
         }
     }
 
@@ -290,7 +257,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         catch (IOException ex)
         {
             // Not the store's fault, but waiting the probe interval keeps a failing disk from spinning this loop.
-            _lastError = Describe(ex);
+            _front.LastError = Describe(ex);
             LogSpoolReadFailed(_logger, ex);
             MarkUnreachable();
             return;
@@ -301,7 +268,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         {
             case SendOutcome.Stored:
                 _spool.Commit(chunk);
-                Interlocked.Add(ref _written, chunk.Lines);
+                _front.Stored(chunk.Lines);
                 Interlocked.Add(ref _replayed, chunk.Lines);
                 MarkReachable();
                 break;
@@ -334,17 +301,16 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
                 await _writeApi.WriteRecordAsync(text, WritePrecision.Ms, _options.Bucket, _options.Org, _hardStop.Token).ConfigureAwait(false);
             }
 
-            Interlocked.Exchange(ref _lastStoredUnixMs, _timeProvider.GetUtcNow().ToUnixTimeMilliseconds());
             return SendOutcome.Stored;
         }
         catch (Exception ex) when (IsRejected(ex))
         {
-            _lastError = Describe(ex);
+            _front.LastError = Describe(ex);
             return SendOutcome.Rejected;
         }
         catch (Exception ex)
         {
-            _lastError = Describe(ex);
+            _front.LastError = Describe(ex);
             if (_reachable)
             {
                 LogWriteFailed(_logger, Describe(ex));
@@ -364,7 +330,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
     private void Reject(string text, int lines)
     {
         Interlocked.Add(ref _rejected, lines);
-        LogRejected(_logger, lines, _lastError ?? "");
+        LogRejected(_logger, lines, _front.LastError ?? "");
         _spool.AppendRejected(text);
     }
 
@@ -373,14 +339,14 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
     {
         var text = new TextBuffer(batch.Count * 96);
         var lines = batch.Format(text, out var skipped);
-        Interlocked.Add(ref _skipped, skipped);
+        _front.Skipped(skipped);
         try
         {
             Spool(text.Span, lines);
         }
         catch (Exception ex) when (ex is IOException or UnauthorizedAccessException)
         {
-            _lastError = Describe(ex);
+            _front.LastError = Describe(ex);
             Interlocked.Add(ref _lost, lines);
             LogSpoolFailed(_logger, lines, ex);
         }
@@ -391,7 +357,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         if (_reachable)
         {
             _reachable = false;
-            LogUnreachable(_logger, _displayUrl, _lastError ?? "");
+            LogUnreachable(_logger, _displayUrl, _front.LastError ?? "");
         }
 
         // Probe backoff: doubling from BaseDelay up to MaxDelay, with +-20 % jitter so that many
@@ -409,7 +375,7 @@ public sealed partial class InfluxTimeSeriesSink : ITimeSeriesSink
         if (!_reachable)
         {
             _reachable = true;
-            _lastError = null;
+            _front.LastError = null;
             LogReachable(_logger, _displayUrl, _spool.Bytes);
         }
     }

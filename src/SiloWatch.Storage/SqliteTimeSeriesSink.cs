@@ -10,7 +10,8 @@ public readonly record struct StoredSample(string Measurement, string TagSet, st
 /// The embedded time-series store (the default when no URL is configured): a SQLite file in WAL
 /// mode, one row per (series field, timestamp). Rewriting the same series field and timestamp
 /// replaces the value, as InfluxDB does. The same bounded buffer as the InfluxDB sink sits in
-/// front; when it is full the calling thread writes the overflowing batch to the file itself.
+/// front (<see cref="BufferedSinkFront"/>); when it is full the calling thread writes the
+/// overflowing batch to the file itself.
 /// Samples older than the retention are pruned hourly.
 /// </summary>
 public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
@@ -28,15 +29,11 @@ public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
     private readonly TimeSpan _retention;
     private readonly TimeProvider _timeProvider;
     private readonly ILogger _logger;
-    private readonly PointBuffer _buffer;
+    private readonly BufferedSinkFront _front;
     private readonly Task _writer;
     private DateTimeOffset _nextPrune;
     private volatile bool _failing;
-    private volatile string? _lastError;
-    private long _written;
     private long _discarded;
-    private long _skipped;
-    private long _lastStoredUnixMs = -1;
     private bool _disposed;
 
     public SqliteTimeSeriesSink(string path, TimeSeriesOptions options, TimeSpan retention, TimeProvider timeProvider, ILogger<SqliteTimeSeriesSink> logger)
@@ -79,39 +76,21 @@ public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
         _pTs = _insert.Parameters.Add("$t", SqliteType.Integer);
         _pValue = _insert.Parameters.Add("$v", SqliteType.Real);
         _nextPrune = timeProvider.GetUtcNow();
-        _buffer = new PointBuffer(options.BatchSize, options.BufferCapacityPoints, options.FlushInterval, timeProvider, WriteOverflow);
+        _front = new BufferedSinkFront(options, timeProvider, WriteOverflow);
         LogStarted(_logger, Path, retention);
         _writer = Task.Run(RunAsync);
     }
 
     public string Path { get; }
 
-    public StorageHealth Health => new()
+    public StorageHealth Health => _front.Health("sqlite", reachable: !_failing) with
     {
-        Backend = "sqlite",
-        StoreReachable = !_failing,
-        BufferedPoints = _buffer.BufferedPoints,
-        BufferCapacityPoints = _buffer.CapacityPoints,
-        WrittenPoints = Interlocked.Read(ref _written),
-        OverflowPoints = _buffer.OverflowPoints,
         DiscardedPoints = Interlocked.Read(ref _discarded),
-        SkippedNonFinitePoints = Interlocked.Read(ref _skipped),
-        LastStoredUtc = Interlocked.Read(ref _lastStoredUnixMs) is var ms and >= 0 ? DateTimeOffset.FromUnixTimeMilliseconds(ms) : null,
-        LastError = _lastError,
     };
 
-    public void Write(SeriesKey series, long timestampMs, ReadOnlySpan<double> values)
-    {
-        ArgumentNullException.ThrowIfNull(series);
-        if (values.Length != series.FieldNames.Count)
-        {
-            throw new ArgumentException($"{series.Measurement} takes {series.FieldNames.Count} values, got {values.Length}", nameof(values));
-        }
+    public void Write(SeriesKey series, long timestampMs, ReadOnlySpan<double> values) => _front.Write(series, timestampMs, values);
 
-        _buffer.Add(series, timestampMs, values);
-    }
-
-    public Task FlushAsync(CancellationToken ct) => _buffer.FlushAsync(ct);
+    public Task FlushAsync(CancellationToken ct) => _front.FlushAsync(ct);
 
     /// <summary>
     /// Stored samples of one field of a measurement, from <paramref name="fromMs"/> (inclusive) to
@@ -137,7 +116,7 @@ public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
             }
         }
 
-        _buffer.Complete();
+        _front.Complete();
         await _writer.ConfigureAwait(false);
         lock (_db)
         {
@@ -146,40 +125,33 @@ public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
             _connection.Dispose();
         }
 
-        _buffer.Dispose();
+        _front.Dispose();
     }
 
     private async Task RunAsync()
     {
-        await foreach (var item in _buffer.Reader.ReadAllAsync().ConfigureAwait(false))
+        await foreach (var item in _front.Reader.ReadAllAsync().ConfigureAwait(false))
         {
-            if (item is FlushMarker marker)
-            {
-                marker.Complete();
-                continue;
-            }
-
-            var batch = (PointBatch)item;
-            try
-            {
-                await WriteWithRetryAsync(batch).ConfigureAwait(false);
-            }
-            catch (Exception ex) when (ex is not SqliteException)
-            {
-                // A bug must not stop the writer: later batches and flushes still need it.
-                _lastError = ex.Message;
-                Interlocked.Add(ref _discarded, batch.Count);
-                LogWriteFailed(_logger, batch.Count, ex);
-            }
-            finally
-            {
-                _buffer.Release(batch);
-            }
-
+            await _front.HandleAsync(item, WriteBatchAsync).ConfigureAwait(false);
             if (_timeProvider.GetUtcNow() >= _nextPrune)
             {
                 Prune();
             }
+        }
+    }
+
+    private async Task WriteBatchAsync(PointBatch batch)
+    {
+        try
+        {
+            await WriteWithRetryAsync(batch).ConfigureAwait(false);
+        }
+        catch (Exception ex) when (ex is not SqliteException)
+        {
+            // A bug must not stop the writer: later batches and flushes still need it.
+            _front.LastError = ex.Message;
+            Interlocked.Add(ref _discarded, batch.Count);
+            LogWriteFailed(_logger, batch.Count, ex);
         }
     }
 
@@ -199,20 +171,20 @@ public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
                 if (_failing)
                 {
                     _failing = false;
-                    _lastError = null;
+                    _front.LastError = null;
                 }
 
                 return;
             }
             catch (SqliteException ex) when (attempt < 3)
             {
-                _lastError = ex.Message;
+                _front.LastError = ex.Message;
                 _failing = true;
                 await Task.Delay(TimeSpan.FromSeconds(1), _timeProvider).ConfigureAwait(false);
             }
             catch (SqliteException ex)
             {
-                _lastError = ex.Message;
+                _front.LastError = ex.Message;
                 _failing = true;
                 Interlocked.Add(ref _discarded, batch.Count);
                 LogWriteFailed(_logger, batch.Count, ex);
@@ -232,7 +204,7 @@ public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
         }
         catch (SqliteException ex)
         {
-            _lastError = ex.Message;
+            _front.LastError = ex.Message;
             _failing = true;
             Interlocked.Add(ref _discarded, batch.Count);
             LogWriteFailed(_logger, batch.Count, ex);
@@ -277,9 +249,8 @@ public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
 
         tx.Commit();
         _insert.Transaction = null;
-        Interlocked.Add(ref _written, written);
-        Interlocked.Add(ref _skipped, skipped);
-        Interlocked.Exchange(ref _lastStoredUnixMs, _timeProvider.GetUtcNow().ToUnixTimeMilliseconds());
+        _front.Stored(written);
+        _front.Skipped(skipped);
     }
 
     private long[] FieldIdsLocked(SeriesKey series, SqliteTransaction tx)
@@ -331,7 +302,7 @@ public sealed partial class SqliteTimeSeriesSink : ITimeSeriesSink
         }
         catch (SqliteException ex)
         {
-            _lastError = ex.Message;
+            _front.LastError = ex.Message;
             LogPruneFailed(_logger, ex);
         }
     }

@@ -8,8 +8,14 @@ using SiloWatch.Benchmarks;
 //   scenario-accuracy [scenario.json ...]        estimates against the simulator's ground truth per scenario
 //   detection [...]                              wall-load alarm detection rate, delay and false alarms
 //   scale-load [--silos 400 --rate 20000 ...]    the demo plant scaled to hundreds of silos: samples/s, latency, memory per silo
+//   plant-load [silos ...] [--rounds 5]          load + validate time of the demo plant copied to N silos (service start, verify)
 // Everything else is BenchmarkDotNet (pick with --filter).
 if (args.Length > 0 && args[0] is "scale-load" or "scale-load-run") return await ScaleLoadDriver.MainAsync(args);
+
+if (args.Length > 0 && args[0] == "plant-load")
+{
+    return PlantLoadDriver.Run(args[1..]);
+}
 
 if (args.Length > 0 && args[0] == "ingest-load")
 {

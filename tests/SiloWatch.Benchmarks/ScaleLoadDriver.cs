@@ -396,7 +396,7 @@ public static class ScaleLoadDriver
     /// The demo plant with its four silos copied round-robin up to <paramref name="count"/>, 100 silos per
     /// invented site "load-00", "load-01" ..., silo ids "S1-000", "S2-000", "C1-000", "F1-000", "S1-001" ...
     /// </summary>
-    private static (string Path, ScaledSilo[] Silos) WriteScaledPlant(string root, string folder, int count)
+    internal static (string Path, ScaledSilo[] Silos) WriteScaledPlant(string root, string folder, int count)
     {
         var options = new JsonDocumentOptions { CommentHandling = JsonCommentHandling.Skip, AllowTrailingCommas = true };
         var demo = JsonNode.Parse(File.ReadAllText(Path.Combine(root, "config", "plant.demo.json")), documentOptions: options)!;
@@ -484,7 +484,7 @@ public static class ScaleLoadDriver
     private static double Percentile(double[] sorted, double p) =>
         sorted.Length == 0 ? double.NaN : sorted[Math.Clamp((int)Math.Ceiling(p * sorted.Length) - 1, 0, sorted.Length - 1)];
 
-    private sealed record ScaledSilo(string Key, string Template, string Topic);
+    internal sealed record ScaledSilo(string Key, string Template, string Topic);
 
     public sealed record RunResult(int Silos, double OfferedPerS, double SustainedPerS, double NewestP50Ms, double NewestP99Ms,
         double EveryP50Ms, double EveryP99Ms, double OutboundP50Ms, double OutboundP99Ms, double IngestWaitMs,

@@ -58,6 +58,12 @@ public sealed class StatusPageTests(ITestOutputHelper output)
         var row = page.Locator($"tr[data-alarm='{Alarm}']");
         await Assertions.Expect(row).ToHaveAttributeAsync("data-state", "unacknowledged", new() { Timeout = 30_000 });
         await Assertions.Expect(row.Locator("button.ack")).ToHaveCountAsync(0);
+
+        // One alarm is no flood: the site row says so.
+        var siteRow = page.Locator("tr[data-site='brackenford']");
+        await Assertions.Expect(siteRow).ToHaveAttributeAsync("data-flood", "false");
+        await Assertions.Expect(siteRow.Locator("td.flood")).ToHaveTextAsync("no alarm flood");
+        await Assertions.Expect(siteRow.Locator("td.silo-count")).ToHaveTextAsync("4");
         using (var http = new HttpClient { BaseAddress = service.BaseAddress })
         {
             var anonymous = await http.PostAsync($"api/alarms/brackenford/S1/overfill/ack", new StringContent("{}"));
@@ -95,6 +101,47 @@ public sealed class StatusPageTests(ITestOutputHelper output)
         await page.ScreenshotAsync(new() { Path = Path.Combine(folder, "status-page-phone.png"), FullPage = true });
         output.WriteLine($"screenshots in {folder}");
         Assert.True(new FileInfo(shot).Length > 10_000, "the screenshot is not empty");
+        Assert.Empty(errors);
+    }
+
+    [Fact]
+    public async Task ASiteInAnAlarmFloodIsShownInItsRowWithTheCountOfAlarms()
+    {
+        var chromium = HeadlessChromium.Locate();
+        if (chromium is null)
+        {
+            return;
+        }
+
+        // The flood threshold lowered to no activation at all, so that S1's real overfill alarm floods the site
+        // (the window is on the samples' clock, long enough that the flood does not end during the test).
+        var plant = LiveService.PlantWithLimit("S1", "OverfillPercent", 50);
+        await using var service = await LiveService.StartAsync("eccentric-discharge.json", speed: 5, plant,
+            ("Alarms:FloodCount", "0"), ("Alarms:FloodEndCount", "0"), ("Alarms:FloodWindow", "01:00:00"));
+
+        using var playwright = await Playwright.CreateAsync();
+        await using var browser = await HeadlessChromium.LaunchAsync(playwright, chromium);
+        var page = await browser.NewPageAsync(new() { ViewportSize = new() { Width = 1400, Height = 1000 } });
+        var errors = new List<string>();
+        page.PageError += (_, e) => errors.Add(e);
+        await page.GotoAsync(service.BaseAddress.ToString());
+
+        var siteRow = page.Locator("tr[data-site='brackenford']");
+        await Assertions.Expect(siteRow).ToHaveAttributeAsync("data-flood", "true", new() { Timeout = 30_000 });
+        await Assertions.Expect(siteRow.Locator("td.flood")).ToHaveTextAsync(
+            new System.Text.RegularExpressions.Regex(@"^IN FLOOD: [1-9]\d* alarms within 60 min, since \d{4}-\d\d-\d\d \d\d:\d\d:\d\dZ\. Work from the highest priority down\.$"));
+
+        // The page shows what the engine's shared flood count says, and the API carries it for other clients.
+        var flood = service.Services.GetRequiredService<SiloWatch.Service.Alarms.SiloAlarmsFactory>().Floods.Active("brackenford");
+        Assert.NotNull(flood);
+        Assert.True(flood.Value >= 1, $"flood count {flood.Value}");
+        using var http = new HttpClient { BaseAddress = service.BaseAddress };
+        using var status = System.Text.Json.JsonDocument.Parse(await http.GetStringAsync("api/status"));
+        var site = Assert.Single(status.RootElement.GetProperty("sites").EnumerateArray());
+        Assert.Equal("brackenford", site.GetProperty("site").GetString());
+        Assert.True(site.GetProperty("flood").GetBoolean());
+        Assert.True(site.GetProperty("floodAlarms").GetDouble() >= 1);
+        Assert.Equal(4, site.GetProperty("silos").GetInt32());
         Assert.Empty(errors);
     }
 

@@ -35,6 +35,9 @@ public sealed class SiloAlarmsFactory(
 
     public EvaluationOptions Evaluation => evaluation.Value;
 
+    /// <summary>The flood count of every site, shared by the silos' engines (read by the status page's site rows).</summary>
+    public AlarmFloodTracker Floods => _floods;
+
     public SiloAlarms Create(SiloRef silo, SiloModel model)
     {
         ArgumentNullException.ThrowIfNull(silo);

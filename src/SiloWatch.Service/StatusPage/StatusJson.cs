@@ -1,12 +1,16 @@
 using System.Buffers;
 using System.Text.Json;
 using SiloWatch.Monitoring;
+using SiloWatch.Monitoring.Alarms;
 using SiloWatch.Service.Alarms;
 using SiloWatch.Service.Ingest;
 
 namespace SiloWatch.Service.StatusPage;
 
-/// <summary>The JSON the status page renders: every owned silo with its estimate, quality, rings and active alarms.</summary>
+/// <summary>
+/// The JSON the status page renders: every site of the owned silos with its alarm flood state, and every owned silo
+/// with its estimate, quality, rings and active alarms.
+/// </summary>
 public static class StatusJson
 {
     public const string Caution =
@@ -14,8 +18,10 @@ public static class StatusJson
         "Alarm limits are set by a licensed structural engineer under the local code. On a wall-load alarm stop or slow the discharge " +
         "as the site procedure says and keep people clear of the silo. Never enter a silo.";
 
-    public static string Status(IEnumerable<SiloPipeline> pipelines, string instanceId, long nowMs, string? user)
+    /// <param name="floods">The shared flood count of the sites (null when alarms are not evaluated: no site is in flood).</param>
+    public static string Status(IEnumerable<SiloPipeline> pipelines, string instanceId, long nowMs, string? user, AlarmFloodTracker? floods)
     {
+        var ordered = pipelines.OrderBy(p => p.Silo.Index).ToList();
         var buffer = new ArrayBufferWriter<byte>(8192);
         using (var w = new Utf8JsonWriter(buffer))
         {
@@ -32,8 +38,15 @@ public static class StatusJson
                 w.WriteString("user", user);
             }
 
+            w.WriteStartArray("sites");
+            foreach (var site in ordered.GroupBy(p => p.Silo.SiteId, StringComparer.Ordinal))
+            {
+                WriteSite(w, site.First().Silo.Site, site.Count(), floods);
+            }
+
+            w.WriteEndArray();
             w.WriteStartArray("silos");
-            foreach (var p in pipelines.OrderBy(p => p.Silo.Index))
+            foreach (var p in ordered)
             {
                 WriteSilo(w, p);
             }
@@ -70,6 +83,41 @@ public static class StatusJson
         }
 
         return System.Text.Encoding.UTF8.GetString(buffer.WrittenSpan);
+    }
+
+    /// <summary>
+    /// One site: how many of its silos this instance watches and whether the site is in an alarm flood, with the
+    /// activations counted in the flood window (the same figure as the flood's entry in the alarm list).
+    /// </summary>
+    private static void WriteSite(Utf8JsonWriter w, SiloWatch.Plant.SiteOptions site, int silos, AlarmFloodTracker? floods)
+    {
+        var flood = floods?.Active(site.Id);
+        w.WriteStartObject();
+        w.WriteString("site", site.Id);
+        w.WriteString("name", site.Name);
+        w.WriteNumber("silos", silos);
+        w.WriteBoolean("flood", flood is not null);
+        if (flood is null)
+        {
+            w.WriteNull("floodAlarms");
+            w.WriteNull("floodSince");
+        }
+        else
+        {
+            PayloadJson.Number(w, "floodAlarms", flood.Value);
+            w.WriteString("floodSince", DateTimeOffset.FromUnixTimeMilliseconds(flood.SinceMs));
+        }
+
+        if (floods is null)
+        {
+            w.WriteNull("floodWindowMin");
+        }
+        else
+        {
+            w.WriteNumber("floodWindowMin", floods.Options.FloodWindow.TotalMinutes);
+        }
+
+        w.WriteEndObject();
     }
 
     private static void WriteSilo(Utf8JsonWriter w, SiloPipeline p)

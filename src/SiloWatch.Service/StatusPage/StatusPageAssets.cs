@@ -41,6 +41,13 @@ public static partial class StatusPageAssets
               </table>
               <p id="actionResult" class="result" role="status"></p>
             </section>
+            <section aria-labelledby="sitesTitle">
+              <h2 id="sitesTitle">Sites</h2>
+              <table id="sites" class="sites">
+                <thead><tr><th>Site</th><th>Silos</th><th>Alarm flood</th></tr></thead>
+                <tbody></tbody>
+              </table>
+            </section>
             <section aria-labelledby="silosTitle">
               <h2 id="silosTitle">Silos</h2>
               <div id="silos" class="silos"></div>

@@ -9,7 +9,7 @@ namespace SiloWatch.Service.StatusPage;
 
 /// <summary>
 /// The status page and its API on the health host:
-/// GET / (page), GET /api/status (every silo), GET /api/status/stream (the same, pushed as
+/// GET / (page), GET /api/status (every site with its alarm flood state, every silo), GET /api/status/stream (the same, pushed as
 /// server-sent events "status"), GET /api/alarms (active alarms), POST
 /// /api/alarms/{site}/{silo}/{alarm}/ack|shelve|unshelve|reset (an authorised user),
 /// POST/GET/DELETE /api/session (log in, who, log out).
@@ -35,6 +35,7 @@ public static class StatusPageEndpoints
         }
 
         var access = app.Services.GetRequiredService<OperatorAccess>();
+        var floods = app.Services.GetService<SiloAlarmsFactory>()?.Floods;
         var readers = app.MapGroup("").AddEndpointFilter(async (context, next) =>
             access.CanRead(context.HttpContext) ? await next(context).ConfigureAwait(false) : Results.Problem("reading is open on loopback only (StatusPage:AllowRemoteRead)", statusCode: 403));
 
@@ -43,11 +44,11 @@ public static class StatusPageEndpoints
         readers.MapGet("/status.js", (HttpContext http) => Asset(http, StatusPageAssets.Script, "text/javascript; charset=utf-8"));
 
         readers.MapGet("/api/status", (HttpContext http, TelemetryIngest ingest, IOptions<InstanceOptions> instance, TimeProvider time) =>
-            Results.Text(StatusJson.Status(ingest.Pipelines, instance.Value.Id, time.GetUtcNow().ToUnixTimeMilliseconds(), access.SessionUser(http)), "application/json"));
+            Results.Text(StatusJson.Status(ingest.Pipelines, instance.Value.Id, time.GetUtcNow().ToUnixTimeMilliseconds(), access.SessionUser(http), floods), "application/json"));
 
         readers.MapGet("/api/status/stream", (HttpContext http, TelemetryIngest ingest, IOptions<InstanceOptions> instance, IOptions<StatusPageOptions> options,
             ChangeSignal changed, TimeProvider time, CancellationToken ct) =>
-            TypedResults.ServerSentEvents(Stream(ingest, instance.Value.Id, access.SessionUser(http), options.Value, changed, time, ct), "status"));
+            TypedResults.ServerSentEvents(Stream(ingest, instance.Value.Id, access.SessionUser(http), floods, options.Value, changed, time, ct), "status"));
 
         readers.MapGet("/api/alarms", (TelemetryIngest ingest) => Results.Text(StatusJson.Alarms(ingest.Pipelines), "application/json"));
 
@@ -143,13 +144,13 @@ public static class StatusPageEndpoints
         return Results.Text(text, contentType);
     }
 
-    private static async IAsyncEnumerable<string> Stream(TelemetryIngest ingest, string instanceId, string? user, StatusPageOptions options,
+    private static async IAsyncEnumerable<string> Stream(TelemetryIngest ingest, string instanceId, string? user, Monitoring.Alarms.AlarmFloodTracker? floods, StatusPageOptions options,
         ChangeSignal changed, TimeProvider time, [EnumeratorCancellation] CancellationToken ct)
     {
         while (!ct.IsCancellationRequested)
         {
             var version = changed.Version;
-            yield return StatusJson.Status(ingest.Pipelines, instanceId, time.GetUtcNow().ToUnixTimeMilliseconds(), user);
+            yield return StatusJson.Status(ingest.Pipelines, instanceId, time.GetUtcNow().ToUnixTimeMilliseconds(), user, floods);
             if (!await PauseAsync(version, options, changed, time, ct).ConfigureAwait(false))
             {
                 yield break;

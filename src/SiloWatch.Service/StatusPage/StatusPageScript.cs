@@ -88,6 +88,20 @@ public static partial class StatusPageAssets
             return card;
           }
 
+          function renderSite(s) {
+            const tr = el('tr');
+            tr.dataset.site = s.site;
+            tr.dataset.flood = String(s.flood);
+            const name = el('td');
+            name.append(el('b', null, s.site), document.createTextNode(s.name ? ' ' + s.name : ''));
+            tr.append(name, el('td', 'silo-count', String(s.silos)));
+            const within = s.floodWindowMin === null ? '' : ' within ' + num(s.floodWindowMin, 0) + ' min';
+            tr.append(el('td', 'flood', s.flood
+              ? 'IN FLOOD: ' + num(s.floodAlarms, 0) + ' alarms' + within + ', since ' + utc(s.floodSince) + '. Work from the highest priority down.'
+              : 'no alarm flood'));
+            return tr;
+          }
+
           function actionButton(label, cls, handler) {
             const b = el('button', cls, label);
             b.type = 'button';
@@ -125,6 +139,7 @@ public static partial class StatusPageAssets
           function render() {
             if (!state) return;
             $('asof').textContent = 'instance ' + state.instance + ' \u00b7 ' + utc(state.generated);
+            $('sites').tBodies[0].replaceChildren(...state.sites.map(renderSite));
             const silos = $('silos');
             silos.replaceChildren(...state.silos.map(renderSilo));
             const alarms = state.silos.flatMap(s => s.alarms)

@@ -34,9 +34,9 @@ public static partial class StatusPageAssets
         .quiet { color: var(--muted); }
         .count { color: var(--ink); }
         .alarms { width: 100%; border-collapse: collapse; background: var(--card); }
-        .alarms th, .alarms td { text-align: left; padding: .35rem .5rem; border-bottom: 1px solid var(--rule); vertical-align: top; }
-        .alarms th { font-size: .8rem; text-transform: uppercase; color: var(--muted); }
-        .alarms tr { border-left: 8px solid transparent; }
+        .alarms th, .alarms td, .sites th, .sites td { text-align: left; padding: .35rem .5rem; border-bottom: 1px solid var(--rule); vertical-align: top; }
+        .alarms th, .sites th { font-size: .8rem; text-transform: uppercase; color: var(--muted); }
+        .alarms tr, .sites tr { border-left: 8px solid transparent; }
         .alarms tr[data-state="unacknowledged"], .alarms tr[data-state="returned-to-normal-unacknowledged"] { border-left-color: var(--bad); font-weight: bold; }
         .alarms tr[data-state="acknowledged"], .alarms tr[data-state="latched"] { border-left-color: var(--warn); }
         .alarms tr[data-state="shelved"], .alarms tr[data-state="out-of-service"] { border-left-color: var(--shelved); color: var(--muted); }
@@ -45,6 +45,9 @@ public static partial class StatusPageAssets
         .state { display: inline-block; padding: 0 .35rem; border: 1px solid currentColor; border-radius: 2px; font-size: .8rem; text-transform: uppercase; white-space: nowrap; }
         .pri { font-weight: bold; white-space: nowrap; }
         .result { min-height: 1.3em; color: var(--muted); }
+        .sites { border-collapse: collapse; background: var(--card); min-width: 50%; }
+        .sites tr[data-flood="true"] { border-left-color: var(--bad); }
+        .sites tr[data-flood="true"] td.flood { color: var(--bad); font-weight: bold; }
         .silos { display: grid; grid-template-columns: repeat(auto-fill, minmax(17rem, 1fr)); gap: .8rem; }
         .silo { background: var(--card); border: 1px solid var(--rule); border-top: 6px solid var(--good); padding: .6rem .8rem; }
         .silo[data-quality="uncertain"] { border-top-color: var(--warn); }
@@ -65,7 +68,7 @@ public static partial class StatusPageAssets
         .quality b { text-transform: uppercase; }
         .silo[data-quality="bad"] .big, .silo[data-quality="bad"] dl.figures dd { color: var(--muted); text-decoration: line-through 2px var(--bad); }
         .silo[data-quality="bad"] { background-image: repeating-linear-gradient(135deg, transparent 0 12px, rgba(163,35,27,.07) 12px 24px); }
-        body[data-link="lost"] .silo, body[data-link="lost"] .alarms { opacity: .5; filter: grayscale(1); }
+        body[data-link="lost"] .silo, body[data-link="lost"] .alarms, body[data-link="lost"] .sites { opacity: .5; filter: grayscale(1); }
         .rings { font-size: .85rem; color: var(--muted); margin: .2rem 0 0; padding-left: 1rem; }
         .silo-alarms { margin: .3rem 0 0; padding-left: 1rem; color: var(--bad); font-size: .9rem; }
         .foot { padding: .5rem 1rem 1rem; color: var(--muted); font-size: .85rem; }
