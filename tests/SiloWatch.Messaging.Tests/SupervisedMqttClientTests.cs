@@ -129,6 +129,29 @@ public sealed class SupervisedMqttClientTests(ITestOutputHelper output) : IAsync
     }
 
     [Fact]
+    public async Task AStopOutOfTimeReturnsWithAWarningInsteadOfThrowingAndTheWillSaysOffline()
+    {
+        var (observer, received, _) = _env.Client(MqttTestEnvironment.Options(Broker.Port, "observer-late-stop"), "observer-late-stop",
+            _topics.InstanceStatus("shard-9"));
+        var (instance, _, log) = _env.Client(MqttTestEnvironment.Options(Broker.Port, "late-stop"), "shard-9");
+        await observer.StartAsync(CancellationToken.None);
+        await MqttTestEnvironment.ConnectedAsync(observer);
+        await instance.StartAsync(CancellationToken.None);
+        await MqttTestEnvironment.ConnectedAsync(instance);
+        Assert.Equal("online", Status(await MqttTestEnvironment.NextAsync(received)));
+
+        // The host's shutdown timeout has already run out when the client's turn comes.
+        using var expired = new CancellationTokenSource();
+        await expired.CancelAsync();
+        await instance.StopAsync(expired.Token);
+
+        Assert.Equal(1, log.Count(LogLevel.Warning, "stop out of time"));
+        await instance.DisposeAsync();
+        var offline = await MqttTestEnvironment.NextAsync(received);
+        Assert.Equal(("offline", "connection lost"), (Status(offline), Property(offline, "reason")));
+    }
+
+    [Fact]
     public async Task MessagesPublishedWhileASubscriberIsStoppedArriveWhenItComesBack()
     {
         var topic = _topics.Command("brackenford", "F1");

@@ -105,7 +105,7 @@ public sealed class PartitionWorker
             _timed.Enqueue(pipeline, startMs + _publishIntervalMs);
         }
 
-        while (true)
+        while (!_cut)
         {
             if (stoppingToken.IsCancellationRequested)
             {
@@ -150,7 +150,7 @@ public sealed class PartitionWorker
             }
 
             Volatile.Write(ref _waitingUntilMs, Working);
-            while (reader.TryRead(out var message))
+            while (!_cut && !stoppingToken.IsCancellationRequested && reader.TryRead(out var message))
             {
                 var pipeline = message.Pipeline;
                 try
@@ -214,9 +214,42 @@ public sealed class PartitionWorker
             }
         }
 
+        if (_cut)
+        {
+            LeaveQueued();
+        }
+
         PublishAll();
         SaveSnapshots();
         await CheckpointAsync(stoppingToken).ConfigureAwait(false);
+    }
+
+    /// <summary>
+    /// Stop cut short (the drain took too long): the worker processes no more messages, leaves those
+    /// still queued unacknowledged for the broker to deliver again to the session, publishes, saves
+    /// and checkpoints what it has processed, and ends. Any thread.
+    /// </summary>
+    public void Cut() => _cut = true;
+
+    /// <summary>Messages left in the queue by <see cref="Cut"/>, for the broker to redeliver.</summary>
+    public long LeftQueued => Interlocked.Read(ref _leftQueued);
+
+    private volatile bool _cut;
+    private long _leftQueued;
+
+    private void LeaveQueued()
+    {
+        while (_queue.Reader.TryRead(out var message))
+        {
+            message.Release();
+            message.Pipeline.Dequeued();
+            if (message.Ticket is { } ticket)
+            {
+                _checkpoints.Acks.Abandon(ticket);
+            }
+
+            Interlocked.Increment(ref _leftQueued);
+        }
     }
 
     private long NowMs() => _time.GetUtcNow().ToUnixTimeMilliseconds();

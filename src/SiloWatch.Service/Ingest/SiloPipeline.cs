@@ -174,7 +174,7 @@ public sealed class SiloPipeline : ITelemetryReceiver
             (double)estimate.Quality,
         ];
         _sink.Write(_series.Estimate(Silo.Index), estimate.TimestampMs, fields);
-        _outbound.Enqueue(new OutboundMessage(_stateTopic, StatePayload.Encode(estimate, instanceId, _newestSampleMs == long.MinValue ? null : _newestSampleMs), Retain: true, MqttQualityOfServiceLevel.AtLeastOnce));
+        _outbound.EnqueueLatest(new OutboundMessage(_stateTopic, StatePayload.Encode(estimate, instanceId, _newestSampleMs == long.MinValue ? null : _newestSampleMs), Retain: true, MqttQualityOfServiceLevel.AtLeastOnce));
         Alarms?.Evaluate(Monitor, nowMs, estimate);
         return estimate;
     }

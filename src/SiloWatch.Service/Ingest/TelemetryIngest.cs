@@ -280,7 +280,14 @@ public sealed class TelemetryIngest
     /// Stops taking messages, drains every queue, waits for the workers' last publish and checkpoint,
     /// and for the acknowledgements they release.
     /// </summary>
-    public async Task DrainAsync(CancellationToken cancellationToken)
+    public Task DrainAsync(CancellationToken cancellationToken) => DrainAsync(Timeout.InfiniteTimeSpan, cancellationToken);
+
+    /// <summary>
+    /// As <see cref="DrainAsync(CancellationToken)"/>, but the queues are drained for at most
+    /// <paramref name="budget"/>: then each worker is cut short (<see cref="PartitionWorker.Cut"/>), so it
+    /// leaves what is still queued to the broker, checkpoints what it has processed and ends.
+    /// </summary>
+    public async Task DrainAsync(TimeSpan budget, CancellationToken cancellationToken)
     {
         _accepting = false;
         foreach (var worker in _workers)
@@ -288,9 +295,42 @@ public sealed class TelemetryIngest
             worker.Writer.TryComplete();
         }
 
-        await Task.WhenAll(_running).WaitAsync(cancellationToken).ConfigureAwait(false);
+        var running = Task.WhenAll(_running);
+        try
+        {
+            await running.WaitAsync(budget, cancellationToken).ConfigureAwait(false);
+        }
+        catch (TimeoutException)
+        {
+            _logger.LogWarning("Stop: the ingest queues were not drained within {Budget} ({Messages} message(s) still queued); " +
+                "the rest is left to the broker for redelivery", budget, _workers.Sum(w => w.Depth));
+            foreach (var worker in _workers)
+            {
+                worker.Cut();
+            }
+
+            await running.WaitAsync(cancellationToken).ConfigureAwait(false);
+        }
+
         await _checkpoints.Acks.DrainAsync(cancellationToken).ConfigureAwait(false);
-        _logger.LogInformation("Ingest drained: {Messages} messages, {Samples} samples accepted, {Rejected} rejected",
-            _counters.Messages, _counters.Samples, _counters.RejectedTotal);
+        _logger.LogInformation("Ingest drained: {Messages} messages, {Samples} samples accepted, {Rejected} rejected, {Left} left queued for redelivery",
+            _counters.Messages, _counters.Samples, _counters.RejectedTotal, _workers.Sum(w => w.LeftQueued));
+    }
+
+    /// <summary>True once every worker has ended (drained, cut short or stopped hard).</summary>
+    public bool WorkersStopped => _running.All(t => t.IsCompleted);
+
+    /// <summary>Waits up to <paramref name="limit"/> for the workers to end (after a hard stop: they end at their next message or wake-up).</summary>
+    public async Task<bool> WaitForWorkersAsync(TimeSpan limit)
+    {
+        try
+        {
+            await Task.WhenAll(_running).WaitAsync(limit).ConfigureAwait(false);
+        }
+        catch (TimeoutException)
+        {
+        }
+
+        return WorkersStopped;
     }
 }

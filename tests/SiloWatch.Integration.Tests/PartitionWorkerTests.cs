@@ -11,12 +11,13 @@ using SiloWatch.Service.Ingest;
 namespace SiloWatch.Integration.Tests;
 
 /// <summary>
-/// When a partition worker evaluates its silos, on a fake clock: a silo's new samples are evaluated
-/// within the minimum evaluation interval, no more often than that under a stream, and a silo without
-/// new samples is still evaluated every publish interval at the service's clock. The real host's
-/// wiring and the demo plant; no broker (messages are written to the worker's queue directly).
+/// A partition worker on a fake clock: a silo's new samples are evaluated within the minimum
+/// evaluation interval, no more often than that under a stream, and a silo without new samples is
+/// still evaluated every publish interval at the service's clock; idle intervals are closed only when
+/// the silo's feed is idle; a stop cut short leaves the queue to the broker and checkpoints the rest.
+/// The real host's wiring and the demo plant; no broker (messages are written to the worker's queue directly).
 /// </summary>
-public sealed class EvaluationScheduleTests : IAsyncDisposable
+public sealed class PartitionWorkerTests : IAsyncDisposable
 {
     private const int MinIntervalMs = 40;
     private const int PublishIntervalMs = 1000;
@@ -31,7 +32,7 @@ public sealed class EvaluationScheduleTests : IAsyncDisposable
     private readonly List<(string Silo, long EvaluatedMs, long? SampleMs)> _states = [];
     private readonly Dictionary<string, long> _seq = new(StringComparer.Ordinal);
 
-    public EvaluationScheduleTests()
+    public PartitionWorkerTests()
     {
         _app = SiloWatchApp.Build([
             $"--Storage:EmbeddedPath={Path.Combine(_folder, "series.db")}",
@@ -39,7 +40,7 @@ public sealed class EvaluationScheduleTests : IAsyncDisposable
             "--Mqtt:Host=127.0.0.1", "--Mqtt:Port=1", "--Instance:Id=schedule-0",
             $"--Instance:PublishInterval={TimeSpan.FromMilliseconds(PublishIntervalMs):c}",
             $"--Instance:MinEvaluationInterval={TimeSpan.FromMilliseconds(MinIntervalMs):c}",
-            "--Instance:Partitions=1", "--Instance:LogInterval=00:00:00",
+            "--Instance:Partitions=1", "--Instance:LogInterval=00:00:00", "--Instance:QueueCapacity=65536",
             $"--Instance:PlantFile={Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json")}",
             $"--Instance:MaterialsFile={Path.Combine(AppContext.BaseDirectory, "config", "materials.json")}",
             "--Demo:RunSimulator=false", "--Health:Urls=http://127.0.0.1:0", "--Serilog:MinimumLevel:Default=Warning"],
@@ -159,6 +160,44 @@ public sealed class EvaluationScheduleTests : IAsyncDisposable
         Assert.False(sink.CaptureInterval(series)?.Dirty, "LC1's second written once S1 is idle");
     }
 
+    [Fact]
+    public async Task AStopCutShortLeavesTheQueuedMessagesAndCheckpointsWhatWasProcessed()
+    {
+        var pipeline = _ingest.Pipelines.Single(p => p.Silo.Key == "brackenford/S1");
+        await SendAsync("S1");
+        const int Queued = 20_000; // far more than the worker processes before the cut
+        for (var i = 0; i < Queued; i++)
+        {
+            pipeline.Enqueuing();
+            Assert.True(Worker.Writer.TryWrite(Message(pipeline, 2 + i)));
+        }
+
+        await _ingest.DrainAsync(TimeSpan.Zero, CancellationToken.None).WaitAsync(TimeSpan.FromSeconds(60));
+
+        Assert.True(_ingest.WorkersStopped);
+        Assert.InRange(Worker.LeftQueued, 1, Queued);
+        Assert.Equal(1 + Queued - Worker.LeftQueued, Worker.MessagesProcessed);
+        Assert.Equal(0, pipeline.Queued);
+        Assert.Equal(0, Worker.Depth);
+
+        // The last checkpoint covers what was processed: the publisher's position is the last message processed.
+        var checkpoint = Assert.IsType<IngestCheckpoint>(pipeline.LastCheckpoint);
+        Assert.Equal(1 + Queued - Worker.LeftQueued, Assert.Single(checkpoint.Sequences).Highest);
+    }
+
+    private IngestMessage Message(SiloPipeline pipeline, long seq)
+    {
+        var now = _time.GetUtcNow().ToUnixTimeMilliseconds();
+        var json = JsonSerializer.Serialize(new
+        {
+            pub = "schedule-gw",
+            seq,
+            ts = now,
+            samples = new[] { new { sensor = "LC1", value = 0.8 + (0.001 * seq), unit = "mV/V" } },
+        });
+        return IngestMessage.Copy(pipeline, new ReadOnlySequence<byte>(Encoding.UTF8.GetBytes(json)), now, ticket: null);
+    }
+
     /// <summary>Sends one message of the silo's load cells stamped now, and waits until the worker has processed it.</summary>
     private async Task<long> SendAsync(string silo)
     {
@@ -179,13 +218,14 @@ public sealed class EvaluationScheduleTests : IAsyncDisposable
         await Worker.Writer.WriteAsync(message);
         await WaitForAsync(() => Worker.MessagesProcessed > processed, $"message {seq} of {silo} processed");
         Assert.True(pipeline.SamplesAccepted >= cells.Count * seq, $"{silo}: the samples of message {seq} accepted");
+        States(silo); // taken from the outbound queue now, before a newer state of the silo could take its place there
         return now;
     }
 
     /// <summary>The states published so far for the silo, in order (read from the outbound queue).</summary>
     private List<(string Silo, long EvaluatedMs, long? SampleMs)> States(string silo)
     {
-        while (_outbound.Reader.TryRead(out var message))
+        while (_outbound.TryRead(out var message))
         {
             if (!message.Topic.StartsWith("silowatch/v1/state/", StringComparison.Ordinal))
             {
@@ -208,6 +248,7 @@ public sealed class EvaluationScheduleTests : IAsyncDisposable
         if (at > _time.GetUtcNow())
         {
             await WaitUntilWaitingAsync(null);
+            States("");
             _time.Advance(at - _time.GetUtcNow());
         }
     }
