@@ -163,6 +163,24 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
         }
 
         await StopLoopAsync().ConfigureAwait(false);
+        try
+        {
+            await StopSessionAsync(ct).ConfigureAwait(false);
+        }
+        catch (OperationCanceledException) when (ct.IsCancellationRequested)
+        {
+            // Out of time (a busy or gone broker): the connection ends without DISCONNECT when the client is
+            // disposed, so the broker publishes the will and this instance reads offline all the same.
+            LogStopCutShort(_logger, _options.ClientId);
+            return;
+        }
+
+        LogStopped(_logger, _options.ClientId);
+    }
+
+    /// <summary>Publishes "offline" and disconnects normally, if connected.</summary>
+    private async Task StopSessionAsync(CancellationToken ct)
+    {
         await _gate.WaitAsync(ct).ConfigureAwait(false);
         try
         {
@@ -198,8 +216,6 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
         {
             _gate.Release();
         }
-
-        LogStopped(_logger, _options.ClientId);
     }
 
     /// <summary>
@@ -845,6 +861,9 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
 
     [LoggerMessage(Level = LogLevel.Warning, Message = "MQTT disconnect failed: {Detail}")]
     private static partial void LogDisconnectFailed(ILogger logger, string detail);
+
+    [LoggerMessage(Level = LogLevel.Warning, Message = "MQTT client {ClientId}: stop out of time before offline status and disconnect; the will marks it offline")]
+    private static partial void LogStopCutShort(ILogger logger, string clientId);
 
     [LoggerMessage(Level = LogLevel.Information, Message = "MQTT client {ClientId} stopped")]
     private static partial void LogStopped(ILogger logger, string clientId);

@@ -1,7 +1,6 @@
 using System.Globalization;
 using System.Text;
 using System.Text.Json;
-using System.Text.Unicode;
 using SiloWatch.Plant;
 
 namespace SiloWatch.Messaging;
@@ -24,6 +23,9 @@ public sealed class TelemetryDecoder
     private readonly SiloRef _silo;
     private readonly TelemetryDecoderOptions _options;
     private readonly byte[][] _unitsUtf8;
+    private readonly double[] _rangeMin;
+    private readonly double[] _rangeMax;
+    private readonly SensorIdTable _sensorIds;
     private readonly SequenceTracker _sequences;
     private readonly long _maxFutureMs;
     private readonly long _maxLatenessMs;
@@ -39,6 +41,9 @@ public sealed class TelemetryDecoder
         _silo = silo;
         _options = options;
         _unitsUtf8 = [.. silo.Sensors.Select(s => Encoding.UTF8.GetBytes(s.Options.Unit))];
+        _rangeMin = [.. silo.Sensors.Select(s => s.Options.RangeMin)];
+        _rangeMax = [.. silo.Sensors.Select(s => s.Options.RangeMax)];
+        _sensorIds = new SensorIdTable(silo.Sensors);
         _sequences = new SequenceTracker(options.MaxPublishersPerSilo);
         _maxFutureMs = (long)options.MaxFutureSkew.TotalMilliseconds;
         _maxLatenessMs = (long)options.MaxLateness.TotalMilliseconds;
@@ -475,8 +480,7 @@ public sealed class TelemetryDecoder
             return false;
         }
 
-        var options = _silo.Sensors[slot.SensorIndex].Options;
-        if (slot.Value < options.RangeMin || slot.Value > options.RangeMax)
+        if (slot.Value < _rangeMin[slot.SensorIndex] || slot.Value > _rangeMax[slot.SensorIndex])
         {
             slot.Flaw = Flaw.OutOfRange;
             return false;
@@ -517,19 +521,7 @@ public sealed class TelemetryDecoder
             id = utf8[..length];
         }
 
-        Span<char> chars = stackalloc char[MaxIdBytes];
-        if (Utf8.ToUtf16(id, chars, out _, out var written, replaceInvalidSequences: false) != System.Buffers.OperationStatus.Done)
-        {
-            return false;
-        }
-
-        if (!_silo.TryGetSensor(chars[..written], out var sensor))
-        {
-            return false;
-        }
-
-        index = sensor.Index;
-        return true;
+        return _sensorIds.TryGet(id, out index);
     }
 
     private void ParsePublisher(ref Utf8JsonReader reader, ref MessageInfo message)
@@ -583,30 +575,28 @@ public sealed class TelemetryDecoder
         {
             case JsonTokenType.String:
                 {
-                    var raw = reader.ValueSpan;
-                    if (reader.ValueIsEscaped || raw.Length is < 16 or > 40 || !HasExplicitOffset(raw))
+                    if (reader.ValueIsEscaped)
                     {
                         return TsState.Invalid;
                     }
 
-                    // The usual shape is read by hand (several times faster); anything else goes to the library.
-                    if (!TryParseIsoFast(raw, out unixMs))
+                    if (IsoTimestamp(reader.ValueSpan, out unixMs) is { } state)
                     {
-                        if (!reader.TryGetDateTimeOffset(out var stamp))
-                        {
-                            return TsState.Invalid;
-                        }
-
-                        unixMs = stamp.ToUnixTimeMilliseconds();
+                        return state;
                     }
 
-                    return unixMs is >= 0 and <= MaxEpochMs ? TsState.Valid : TsState.Invalid;
+                    if (!reader.TryGetDateTimeOffset(out var stamp))
+                    {
+                        return TsState.Invalid;
+                    }
+
+                    return EpochState(unixMs = stamp.ToUnixTimeMilliseconds());
                 }
 
             case JsonTokenType.Number:
                 if (reader.TryGetInt64(out unixMs))
                 {
-                    return unixMs is >= 0 and <= MaxEpochMs ? TsState.Valid : TsState.Invalid;
+                    return EpochState(unixMs);
                 }
 
                 if (reader.TryGetDouble(out var ms) && ms is >= 0 and <= MaxEpochMs)
@@ -622,6 +612,24 @@ public sealed class TelemetryDecoder
                 return TsState.Invalid;
         }
     }
+
+    /// <summary>
+    /// An unescaped ISO-8601 string: its state when the shape decides it (too short or long, no
+    /// offset, or the usual shape read by hand); null when the library must read it.
+    /// </summary>
+    private static TsState? IsoTimestamp(ReadOnlySpan<byte> raw, out long unixMs)
+    {
+        unixMs = 0;
+        if (raw.Length is < 16 or > 40 || !HasExplicitOffset(raw))
+        {
+            return TsState.Invalid;
+        }
+
+        // The usual shape is read by hand (several times faster); anything else goes to the library.
+        return TryParseIsoFast(raw, out unixMs) ? EpochState(unixMs) : null;
+    }
+
+    private static TsState EpochState(long unixMs) => unixMs is >= 0 and <= MaxEpochMs ? TsState.Valid : TsState.Invalid;
 
     /// <summary>
     /// <c>yyyy-MM-ddTHH:mm:ss[.f{1,7}](Z|±HH:mm)</c> to Unix milliseconds (fraction truncated, as

@@ -10,16 +10,20 @@ namespace SiloWatch.Storage;
 /// and stamped with their start, so a restart or a replay produces the same series and timestamps.
 /// <para>
 /// An interval is emitted when the series' first point of a later interval arrives, on
-/// <see cref="FlushAsync"/>, or once the series has been silent for two intervals of wall time
-/// (checked by a timer each shortest interval, so after two to three intervals; a sensor that
-/// stops still gets its last interval written). A point arriving for an interval
-/// emitted that way is merged and the interval is written again with the same timestamp (the store
-/// keeps the newer value). A point older than the interval being filled is counted in
+/// <see cref="FlushAsync"/>, or once the series is idle, so that a sensor that stops still gets
+/// its last interval written. Who decides it is idle: by default a timer, once the series has been
+/// silent for two intervals of wall time (checked each shortest interval, so after two to three
+/// intervals). A writer that knows better, because it holds the queue the points come from (the
+/// service's worker of a silo), takes that over with <see cref="IIdleIntervalClose"/>: a writer
+/// stalled for seconds with points still queued (CPU starvation) would otherwise see its interval
+/// written early with part of its points and then again. A point arriving for an interval emitted
+/// as idle is merged and the interval is written again with the same timestamp (the store keeps
+/// one of the two). A point older than the interval being filled is counted in
 /// <see cref="StorageHealth.LatePoints"/>, logged, and not written.
 /// </para>
 /// Measurements without a rule (or with Interval 0) pass through unchanged.
 /// </summary>
-public sealed partial class Downsampler : ITimeSeriesSink, IIntervalCheckpoint
+public sealed partial class Downsampler : ITimeSeriesSink, IIntervalCheckpoint, IIdleIntervalClose
 {
     // Marks a series looked up and found to have no rule (it passes through).
     private static readonly object PassThrough = new();
@@ -110,6 +114,21 @@ public sealed partial class Downsampler : ITimeSeriesSink, IIntervalCheckpoint
         StateOf(series)?.Restore(interval, Volatile.Read(ref _tick));
     }
 
+    public void CloseIdleByCaller(SeriesKey series)
+    {
+        ArgumentNullException.ThrowIfNull(series);
+        if (StateOf(series) is { } state)
+        {
+            state.CallerClosesIdle = true;
+        }
+    }
+
+    public bool CloseIfIdle(SeriesKey series, TimeSpan silentFor)
+    {
+        ArgumentNullException.ThrowIfNull(series);
+        return StateOf(series) is { } state && silentFor >= 2 * state.Interval && state.EmitIfDirty(_inner);
+    }
+
     private SeriesState? StateOf(SeriesKey series)
     {
         var byId = _byId;
@@ -164,7 +183,7 @@ public sealed partial class Downsampler : ITimeSeriesSink, IIntervalCheckpoint
         var now = Interlocked.Increment(ref _tick);
         foreach (var state in _states.Values)
         {
-            if (state is not null && now - state.LastArrival >= state.IdleTicks)
+            if (state is not null && !state.CallerClosesIdle && now - state.LastArrival >= state.IdleTicks)
             {
                 state.EmitIfDirty(_inner);
             }
@@ -215,6 +234,17 @@ public sealed partial class Downsampler : ITimeSeriesSink, IIntervalCheckpoint
 
         /// <summary>Idle-timer ticks of silence after which a partly filled interval is written.</summary>
         public long IdleTicks { get; }
+
+        public TimeSpan Interval => TimeSpan.FromMilliseconds(_intervalMs);
+
+        /// <summary>The writer closes the idle interval (<see cref="IIdleIntervalClose"/>), not the timer.</summary>
+        public bool CallerClosesIdle
+        {
+            get => Volatile.Read(ref _callerClosesIdle);
+            set => Volatile.Write(ref _callerClosesIdle, value);
+        }
+
+        private bool _callerClosesIdle;
 
         /// <summary>The idle-timer tick of the last point.</summary>
         public long LastArrival { get; private set; }
@@ -286,19 +316,20 @@ public sealed partial class Downsampler : ITimeSeriesSink, IIntervalCheckpoint
             }
         }
 
-        public void EmitIfDirty(ITimeSeriesSink sink)
+        /// <returns>True when the interval held points not yet written (and has now been written).</returns>
+        public bool EmitIfDirty(ITimeSeriesSink sink)
         {
             lock (_lock)
             {
-                EmitLocked(sink);
+                return EmitLocked(sink);
             }
         }
 
-        private void EmitLocked(ITimeSeriesSink sink)
+        private bool EmitLocked(ITimeSeriesSink sink)
         {
             if (!_dirty)
             {
-                return;
+                return false;
             }
 
             Span<double> output = stackalloc double[_output.FieldNames.Count];
@@ -322,6 +353,7 @@ public sealed partial class Downsampler : ITimeSeriesSink, IIntervalCheckpoint
 
             sink.Write(_output, _bucket * _intervalMs, output);
             _dirty = false;
+            return true;
         }
 
         private void Reset(long bucket)
@@ -335,4 +367,23 @@ public sealed partial class Downsampler : ITimeSeriesSink, IIntervalCheckpoint
             _dirty = false;
         }
     }
+}
+
+/// <summary>
+/// A sink whose idle intervals the writer may close itself (the <see cref="Downsampler"/>): a writer
+/// that knows when its source is idle (nothing queued, silent for a while on its own clock) is a
+/// better judge than wall-clock silence, which a stalled writer with a full queue also shows.
+/// </summary>
+public interface IIdleIntervalClose
+{
+    /// <summary>From now on the writer closes the idle intervals of <paramref name="series"/>; the wall-clock timer leaves them alone.</summary>
+    void CloseIdleByCaller(SeriesKey series);
+
+    /// <summary>
+    /// Tells that the source of <paramref name="series"/> has nothing queued and has been silent for
+    /// <paramref name="silentFor"/>: when that is at least two intervals of the series, its open
+    /// interval is written if it holds points not yet written.
+    /// </summary>
+    /// <returns>True when an interval was written.</returns>
+    bool CloseIfIdle(SeriesKey series, TimeSpan silentFor);
 }

@@ -55,7 +55,8 @@ public class DecodeBenchmarks
         _payloads = [.. Enumerable.Range(1, Distinct).Select(seq => Payload(seq, ts))];
 
         // A benchmark of rejections would flatter the figures: every sample must be accepted.
-        var check = new TelemetryDecoder(_registry.Silos[0], new TelemetryDecoderOptions()).Decode(_payloads[0], _nowMs, _receiver);
+        var probe = new TelemetryDecoder(_registry.Silos[0], new TelemetryDecoderOptions());
+        var check = probe.Decode(_payloads[0], _nowMs, _receiver);
         if (check.Accepted != SamplesPerMessage || _receiver.Rejected != 0)
         {
             throw new InvalidOperationException($"benchmark payload not fully accepted: {check}");

@@ -14,7 +14,9 @@ namespace SiloWatch.Benchmarks;
 /// <summary>
 /// Load driver: telemetry through a real Mosquitto, consumed once by a bare MQTTnet subscriber and
 /// once by the SiloWatch service, in the same run; prints both rates and their ratio.
-/// Usage: dotnet run -c Release --project tests/SiloWatch.Benchmarks -- ingest-load [messages] [samplesPerMessage]
+/// Usage: dotnet run -c Release --project tests/SiloWatch.Benchmarks -- ingest-load [messages] [samplesPerMessage] [rounds]
+/// On a shared machine the two take turns going first, and each phase records how busy other
+/// processes kept the cores, so that the rounds nobody disturbed can be told apart.
 /// </summary>
 public static class IngestLoadDriver
 {
@@ -41,24 +43,39 @@ public static class IngestLoadDriver
         {
             var payloads = BuildPayloads(messages, perMessage);
             Console.WriteLine($"{messages} messages of {perMessage} samples (~{payloads[0].Length} bytes) through mosquitto on 127.0.0.1:{port}, QoS 1, " +
-                $"{rounds} round(s) of bare subscriber then service; {Environment.ProcessorCount} cores, load average {LoadAverage()}");
-            Console.WriteLine("cpu: microseconds of CPU per message while streaming, in this process (publisher + consumer) and in mosquitto");
-            var ratios = new List<double>();
+                $"{rounds} round(s), bare subscriber and service in turn (the first of each round alternates); {Environment.ProcessorCount} cores, load average {LoadAverage()}");
+            Console.WriteLine("cpu: microseconds of CPU per message while streaming, in this process (publisher + consumer) and in mosquitto; " +
+                "others: cores busy with other processes during the phase (from /proc/stat)");
+            var bares = new List<Phase>();
+            var services = new List<Phase>();
             for (var round = 1; round <= rounds; round++)
             {
-                Settle();
-                var bare = await MeasureBareAsync(port, payloads, round, new Meter(broker));
-                Settle();
-                var service = await MeasureServiceAsync(port, payloads, perMessage, folder, round, new Meter(broker));
-                ratios.Add(service.Rate / bare.Rate);
-                Console.WriteLine($"round {round}: bare {bare.Rate,8:N0} msg/s (cpu {bare.OwnCpuUs(messages),5:F1} us, mosquitto {bare.BrokerCpuUs(messages),5:F1} us) | " +
-                    $"service {service.Rate,8:N0} msg/s = {service.Rate * perMessage,9:N0} samples/s (cpu {service.OwnCpuUs(messages),5:F1} us, mosquitto {service.BrokerCpuUs(messages),5:F1} us) | " +
+                Phase bare, service;
+                if (round % 2 == 1)
+                {
+                    Settle();
+                    bare = await MeasureBareAsync(port, payloads, round, new Meter(broker));
+                    Settle();
+                    service = await MeasureServiceAsync(port, payloads, perMessage, folder, round, new Meter(broker));
+                }
+                else
+                {
+                    Settle();
+                    service = await MeasureServiceAsync(port, payloads, perMessage, folder, round, new Meter(broker));
+                    Settle();
+                    bare = await MeasureBareAsync(port, payloads, round, new Meter(broker));
+                }
+
+                bares.Add(bare);
+                services.Add(service);
+                Console.WriteLine($"round {round}: bare {bare.Rate,8:N0} msg/s (cpu {bare.OwnCpuUs(messages),5:F1} us, mosquitto {bare.BrokerCpuUs(messages),5:F1} us, others {bare.OtherCores,4:F2}) | " +
+                    $"service {service.Rate,8:N0} msg/s = {service.Rate * perMessage,9:N0} samples/s (cpu {service.OwnCpuUs(messages),5:F1} us, mosquitto {service.BrokerCpuUs(messages),5:F1} us, others {service.OtherCores,4:F2}) | " +
                     $"ratio {service.Rate / bare.Rate:P1}");
                 Console.WriteLine($"         bare {bare.Gc(messages)} | service {service.Gc(messages)}");
             }
 
-            ratios.Sort();
-            Console.WriteLine($"ratio service/bare: median {ratios[ratios.Count / 2]:P1}, range {ratios[0]:P1} .. {ratios[^1]:P1} over {rounds} round(s); load average now {LoadAverage()}");
+            Summarise(bares, services, messages);
+            Console.WriteLine($"load average now {LoadAverage()}");
             return 0;
         }
         finally
@@ -68,7 +85,36 @@ public static class IngestLoadDriver
         }
     }
 
-    private sealed record Phase(double Rate, TimeSpan OwnCpu, TimeSpan BrokerCpu, long AllocatedBytes, int Gen0, int Gen2, TimeSpan GcPause)
+    /// <summary>
+    /// Medians and bests of both consumers, the ratio per round, and the ratio over the quiet rounds:
+    /// those in which other processes kept less than <see cref="QuietCores"/> of a core busy in both phases.
+    /// </summary>
+    private static void Summarise(List<Phase> bares, List<Phase> services, int messages)
+    {
+        static double Median(IEnumerable<double> values)
+        {
+            var sorted = values.Order().ToArray();
+            return sorted.Length % 2 == 1 ? sorted[sorted.Length / 2] : 0.5 * (sorted[(sorted.Length / 2) - 1] + sorted[sorted.Length / 2]);
+        }
+
+        var ratios = bares.Zip(services, (b, s) => s.Rate / b.Rate).ToArray();
+        Console.WriteLine($"bare:    median {Median(bares.Select(p => p.Rate)),8:N0} msg/s, best {bares.Max(p => p.Rate),8:N0} msg/s; " +
+            $"own cpu median {Median(bares.Select(p => p.OwnCpuUs(messages))):F1} us/msg");
+        Console.WriteLine($"service: median {Median(services.Select(p => p.Rate)),8:N0} msg/s, best {services.Max(p => p.Rate),8:N0} msg/s; " +
+            $"own cpu median {Median(services.Select(p => p.OwnCpuUs(messages))):F1} us/msg " +
+            $"(the service adds {Median(services.Select(p => p.OwnCpuUs(messages))) - Median(bares.Select(p => p.OwnCpuUs(messages))):F1} us of CPU per message)");
+        Console.WriteLine($"ratio service/bare: median {Median(ratios):P1}, range {ratios.Min():P1} .. {ratios.Max():P1} over {ratios.Length} round(s); " +
+            $"best service / best bare {services.Max(p => p.Rate) / bares.Max(p => p.Rate):P1}");
+        var quiet = Enumerable.Range(0, ratios.Length).Where(i => bares[i].OtherCores < QuietCores && services[i].OtherCores < QuietCores).ToArray();
+        Console.WriteLine(quiet.Length == 0
+            ? $"quiet rounds (others below {QuietCores:F2} cores in both phases): none"
+            : $"quiet rounds (others below {QuietCores:F2} cores in both phases): {quiet.Length}, ratio median {Median(quiet.Select(i => ratios[i])):P1}, " +
+              $"range {quiet.Min(i => ratios[i]):P1} .. {quiet.Max(i => ratios[i]):P1}");
+    }
+
+    private const double QuietCores = 0.25;
+
+    private sealed record Phase(double Rate, TimeSpan OwnCpu, TimeSpan BrokerCpu, long AllocatedBytes, int Gen0, int Gen2, TimeSpan GcPause, double OtherCores)
     {
         public string Gc(int messages) => string.Create(CultureInfo.InvariantCulture,
             $"alloc {AllocatedBytes / (double)messages,6:N0} B/msg, gc0 {Gen0,3} gc2 {Gen2,2}, pause {GcPause.TotalMilliseconds,5:N0} ms");
@@ -81,6 +127,8 @@ public static class IngestLoadDriver
     /// <summary>CPU and GC counters from the start of publishing to the last message consumed.</summary>
     private sealed class Meter(Process broker)
     {
+        private long _started;
+        private double _busy;
         private TimeSpan _own;
         private TimeSpan _broker;
         private long _allocated;
@@ -94,14 +142,30 @@ public static class IngestLoadDriver
             broker.Refresh();
             (_own, _broker) = (self.TotalProcessorTime, broker.TotalProcessorTime);
             (_allocated, _gen0, _gen2, _pause) = (GC.GetTotalAllocatedBytes(), GC.CollectionCount(0), GC.CollectionCount(2), GC.GetTotalPauseDuration());
+            (_started, _busy) = (Stopwatch.GetTimestamp(), MachineBusySeconds());
         }
 
         public Phase Stop(double rate)
         {
             var self = Process.GetCurrentProcess();
             broker.Refresh();
-            return new Phase(rate, self.TotalProcessorTime - _own, broker.TotalProcessorTime - _broker,
-                GC.GetTotalAllocatedBytes() - _allocated, GC.CollectionCount(0) - _gen0, GC.CollectionCount(2) - _gen2, GC.GetTotalPauseDuration() - _pause);
+            var (own, brokerCpu) = (self.TotalProcessorTime - _own, broker.TotalProcessorTime - _broker);
+            var others = (MachineBusySeconds() - _busy - own.TotalSeconds - brokerCpu.TotalSeconds) / Stopwatch.GetElapsedTime(_started).TotalSeconds;
+            return new Phase(rate, own, brokerCpu, GC.GetTotalAllocatedBytes() - _allocated, GC.CollectionCount(0) - _gen0,
+                GC.CollectionCount(2) - _gen2, GC.GetTotalPauseDuration() - _pause, Math.Max(0, others));
+        }
+
+        /// <summary>CPU seconds all processes have used since boot (user, nice, system, irq, softirq, steal); NaN without /proc.</summary>
+        private static double MachineBusySeconds()
+        {
+            if (!File.Exists("/proc/stat"))
+            {
+                return double.NaN;
+            }
+
+            var fields = File.ReadLines("/proc/stat").First().Split(' ', StringSplitOptions.RemoveEmptyEntries);
+            var ticks = new[] { 1, 2, 3, 6, 7, 8 }.Sum(i => long.Parse(fields[i], CultureInfo.InvariantCulture));
+            return ticks / 100.0; // USER_HZ is 100 on Linux
         }
     }
 
@@ -273,7 +337,7 @@ public static class IngestLoadDriver
         try
         {
             var payloads = BuildPayloads(messages, perMessage);
-            var results = new List<(double Us, double Bytes)>();
+            var results = new List<(double Us, double CpuUs, double Bytes)>();
             for (var r = 0; r < repeats; r++)
             {
                 var app = SiloWatchApp.Build([
@@ -287,6 +351,7 @@ public static class IngestLoadDriver
                 var pipeline = ingest.Pipelines.First(p => p.Silo.Key == "brackenford/S1");
                 var now = DateTimeOffset.UtcNow.ToUnixTimeMilliseconds();
                 var allocated = GC.GetAllocatedBytesForCurrentThread();
+                var cpu = ThreadCpu.Now();
                 var started = Stopwatch.GetTimestamp();
                 foreach (var payload in payloads)
                 {
@@ -294,13 +359,14 @@ public static class IngestLoadDriver
                 }
 
                 var elapsed = Stopwatch.GetElapsedTime(started);
+                var cpuUsed = ThreadCpu.Now() - cpu;
                 var bytes = GC.GetAllocatedBytesForCurrentThread() - allocated;
                 if (pipeline.SamplesAccepted != (long)messages * perMessage)
                 {
                     throw new InvalidOperationException($"only {pipeline.SamplesAccepted} of {messages * perMessage} samples accepted");
                 }
 
-                results.Add((elapsed.TotalMicroseconds / messages, bytes / (double)messages));
+                results.Add((elapsed.TotalMicroseconds / messages, cpuUsed.TotalMicroseconds / messages, bytes / (double)messages));
                 await app.DisposeAsync();
             }
 
@@ -310,6 +376,11 @@ public static class IngestLoadDriver
                 $"ingest-path: {messages} messages of {perMessage} samples through the S1 pipeline on one thread, {repeats} repeats; load average {LoadAverage()}"));
             Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
                 $"per message: best {best.Us:F1} us ({best.Us * 1000 / perMessage:F0} ns per sample), median {median.Us:F1} us; allocated {best.Bytes:F0} B per message"));
+            // CPU time is what the loop's thread used: on a shared machine it leaves out the time the thread
+            // waited for a core, which the wall clock above includes.
+            var cpuSorted = results.Select(x => x.CpuUs).Order().ToArray();
+            Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
+                $"thread cpu per message: best {cpuSorted[0]:F1} us, median {cpuSorted[cpuSorted.Length / 2]:F1} us"));
             return 0;
         }
         finally
@@ -323,5 +394,24 @@ public static class IngestLoadDriver
         using var listener = new TcpListener(IPAddress.Loopback, 0);
         listener.Start();
         return ((IPEndPoint)listener.LocalEndpoint).Port;
+    }
+
+    /// <summary>
+    /// CPU time of the calling thread: the first field of Linux's /proc/thread-self/schedstat
+    /// (nanoseconds on a core); the process's CPU time where that file is missing.
+    /// </summary>
+    private static class ThreadCpu
+    {
+        public static TimeSpan Now()
+        {
+            const string Path = "/proc/thread-self/schedstat";
+            if (File.Exists(Path))
+            {
+                var text = File.ReadAllText(Path);
+                return TimeSpan.FromTicks(long.Parse(text.AsSpan(0, text.IndexOf(' ', StringComparison.Ordinal)), CultureInfo.InvariantCulture) / 100);
+            }
+
+            return Process.GetCurrentProcess().TotalProcessorTime;
+        }
     }
 }

@@ -20,7 +20,7 @@ namespace SiloWatch.Benchmarks;
 /// real Mosquitto on loopback into the service (in-process), and an observer of the published states (mosquitto_sub).
 /// Each run is a fresh process; a run with few silos at the same load per silo is the memory baseline.
 /// Usage: dotnet run -c Release --project tests/SiloWatch.Benchmarks -- scale-load
-///          [--silos 400] [--rate 20000] [--seconds 60] [--warmup 20] [--interval 00:00:01] [--baseline 4]
+///          [--silos 400] [--rate 20000] [--seconds 60] [--warmup 20] [--interval 00:00:01] [--baseline 4] [--min-evaluation 00:00:00.025]
 /// </summary>
 public static class ScaleLoadDriver
 {
@@ -41,7 +41,7 @@ public static class ScaleLoadDriver
 
         Console.WriteLine($"scale-load: the demo plant copied to {settings.Silos} silos (S1, S2, C1, F1 in turn; invented ids), " +
             $"{settings.Rate:N0} samples/s offered, {settings.Seconds} s measured after {settings.Warmup} s warm-up, " +
-            $"Instance:PublishInterval {settings.Interval}, loopback only, {Environment.ProcessorCount} cores");
+            $"Instance:PublishInterval {settings.Interval}, Instance:MinEvaluationInterval {settings.MinEvaluation}, loopback only, {Environment.ProcessorCount} cores");
         var baseline = await RunChildAsync(settings with { Silos = settings.Baseline, Rate = settings.Rate * settings.Baseline / settings.Silos });
         var scaled = await RunChildAsync(settings);
         if (baseline is null || scaled is null)
@@ -65,7 +65,7 @@ public static class ScaleLoadDriver
         Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
             $"goal p99 < 100 ms at 20,000 samples/s: publish → first state including it p99 {scaled.EveryP99Ms:F0} ms at {scaled.SustainedPerS:N0} samples/s"));
         Console.WriteLine("every msg→state: from the publish of each telemetry message to the arrival of the first state that includes it (\"sampleTs\" at or after");
-        Console.WriteLine("  the message's timestamp): the end-to-end latency, including the wait for the silo's next evaluation (up to Instance:PublishInterval).");
+        Console.WriteLine("  the message's timestamp): the end-to-end latency, including the wait for the silo's next evaluation (up to Instance:MinEvaluationInterval).");
         Console.WriteLine("newest→state: the same for the newest message a state includes only (the freshness of what the operator sees).");
         Console.WriteLine("evaluation→state: from the state's evaluation (\"ts\") to its arrival: outbound queue, QoS 1 publish, broker, observer.");
         Console.WriteLine("ingest wait: samples published but not yet accepted, over the rate (Little's law): broker, receive, partition queue, decoding.");
@@ -148,7 +148,7 @@ public static class ScaleLoadDriver
         var building = Stopwatch.StartNew();
         var app = SiloWatchApp.Build([
             "--Mqtt:Host=127.0.0.1", $"--Mqtt:Port={port}", "--Mqtt:ClientId=silowatch-scale", "--Instance:Id=scale-0",
-            $"--Instance:PublishInterval={settings.Interval}", "--Instance:LogInterval=00:00:00", "--Demo:RunSimulator=false",
+            $"--Instance:PublishInterval={settings.Interval}", $"--Instance:MinEvaluationInterval={settings.MinEvaluation}", "--Instance:LogInterval=00:00:00", "--Demo:RunSimulator=false",
             "--Health:Urls=http://127.0.0.1:0", "--Serilog:MinimumLevel:Default=Warning",
             $"--Instance:PlantFile={plantPath}", $"--Instance:MaterialsFile={Path.Combine(root, "config", "materials.json")}",
             $"--Storage:EmbeddedPath={Path.Combine(folder, "series.db")}", $"--Storage:JournalPath={Path.Combine(folder, "journal.db")}",
@@ -243,7 +243,7 @@ public static class ScaleLoadDriver
         var snapshot = counters.Snapshot();
         Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
             $"service: {snapshot.Samples:N0} samples accepted, {snapshot.Rejected} rejected, {snapshot.MissingMessages} messages missing, " +
-            $"{snapshot.QueueFullWaits} queue-full waits, {snapshot.OutboundDropped} outbound dropped, {snapshot.Published:N0} published; " +
+            $"{snapshot.QueueFullWaits} queue-full waits, {snapshot.OutboundDropped} outbound dropped, {outboundQueue.Replaced:N0} waiting states replaced by newer ones, {snapshot.Published:N0} published; " +
             $"deepest partition queues {maxDepth}, outbound queue {maxOutbound}; {statesPerS:N0} states/s received, " +
             $"{newest.Length:N0} states and {every.Length:N0} messages matched; " +
             $"GC gen0/1/2 {GC.CollectionCount(0)}/{GC.CollectionCount(1)}/{GC.CollectionCount(2)}"));
@@ -490,11 +490,11 @@ public static class ScaleLoadDriver
         double EveryP50Ms, double EveryP99Ms, double OutboundP50Ms, double OutboundP99Ms, double IngestWaitMs,
         long HeapBytes, long WorkingSetBytes, double CpuPercent);
 
-    private sealed record Settings(int Silos, double Rate, int Seconds, int Warmup, TimeSpan Interval, int Baseline)
+    private sealed record Settings(int Silos, double Rate, int Seconds, int Warmup, TimeSpan Interval, int Baseline, TimeSpan MinEvaluation)
     {
         public static Settings Parse(string[] args)
         {
-            var s = new Settings(400, 20_000, 60, 20, TimeSpan.FromSeconds(1), 4);
+            var s = new Settings(400, 20_000, 60, 20, TimeSpan.FromSeconds(1), 4, new InstanceOptions().MinEvaluationInterval);
             for (var i = 0; i + 1 < args.Length; i += 2)
             {
                 var v = args[i + 1];
@@ -506,6 +506,7 @@ public static class ScaleLoadDriver
                     "--warmup" => s with { Warmup = int.Parse(v, CultureInfo.InvariantCulture) },
                     "--interval" => s with { Interval = TimeSpan.Parse(v, CultureInfo.InvariantCulture) },
                     "--baseline" => s with { Baseline = int.Parse(v, CultureInfo.InvariantCulture) },
+                    "--min-evaluation" => s with { MinEvaluation = TimeSpan.Parse(v, CultureInfo.InvariantCulture) },
                     _ => throw new ArgumentException($"unknown option {args[i]}"),
                 };
             }
@@ -520,6 +521,7 @@ public static class ScaleLoadDriver
             "--silos", Silos.ToString(CultureInfo.InvariantCulture), "--rate", Rate.ToString("R", CultureInfo.InvariantCulture),
             "--seconds", Seconds.ToString(CultureInfo.InvariantCulture), "--warmup", Warmup.ToString(CultureInfo.InvariantCulture),
             "--interval", Interval.ToString("c", CultureInfo.InvariantCulture), "--baseline", Baseline.ToString(CultureInfo.InvariantCulture),
+            "--min-evaluation", MinEvaluation.ToString("c", CultureInfo.InvariantCulture),
         ];
     }
 

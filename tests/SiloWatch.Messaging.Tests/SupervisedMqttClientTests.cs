@@ -84,18 +84,25 @@ public sealed class SupervisedMqttClientTests(ITestOutputHelper output) : IAsync
         subscriberLog.AssertNoErrors();
     }
 
+    /// <summary>An instance's client connected and online, with an observer of its status topic (the online status already taken).</summary>
+    private async Task<(SupervisedMqttClient Instance, System.Threading.Channels.Channel<ReceivedMessage> Status, CollectingLogger Log)> OnlineAndWatchedAsync(
+        string clientId, string instanceId)
+    {
+        var (observer, received, _) = _env.Client(MqttTestEnvironment.Options(Broker.Port, "observer-" + clientId), "observer-" + clientId,
+            _topics.InstanceStatus(instanceId));
+        var (instance, _, log) = _env.Client(MqttTestEnvironment.Options(Broker.Port, clientId), instanceId);
+        await observer.StartAsync(CancellationToken.None);
+        await MqttTestEnvironment.ConnectedAsync(observer);
+        await instance.StartAsync(CancellationToken.None);
+        await MqttTestEnvironment.ConnectedAsync(instance);
+        Assert.Equal("online", Status(await MqttTestEnvironment.NextAsync(received)));
+        return (instance, received, log);
+    }
+
     [Fact]
     public async Task AClientThatDiesWithoutDisconnectingIsMarkedOfflineByItsWill()
     {
-        var (observer, received, _) = _env.Client(MqttTestEnvironment.Options(Broker.Port, "observer-will"), "observer-will",
-            _topics.InstanceStatus("shard-7"));
-        var (dying, _, _) = _env.Client(MqttTestEnvironment.Options(Broker.Port, "dying"), "shard-7");
-        await observer.StartAsync(CancellationToken.None);
-        await MqttTestEnvironment.ConnectedAsync(observer);
-        await dying.StartAsync(CancellationToken.None);
-        await MqttTestEnvironment.ConnectedAsync(dying);
-        var online = await MqttTestEnvironment.NextAsync(received);
-        Assert.Equal("online", Status(online));
+        var (dying, received, _) = await OnlineAndWatchedAsync("dying", "shard-7");
 
         await dying.AbandonAsync();
 
@@ -126,6 +133,22 @@ public sealed class SupervisedMqttClientTests(ITestOutputHelper output) : IAsync
         var offline = await MqttTestEnvironment.NextAsync(received);
         Assert.Equal(("offline", "stopped"), (Status(offline), Property(offline, "reason")));
         Assert.False(instance.IsConnected);
+    }
+
+    [Fact]
+    public async Task AStopOutOfTimeReturnsWithAWarningInsteadOfThrowingAndTheWillSaysOffline()
+    {
+        var (instance, received, log) = await OnlineAndWatchedAsync("late-stop", "shard-9");
+
+        // The host's shutdown timeout has already run out when the client's turn comes.
+        using var expired = new CancellationTokenSource();
+        await expired.CancelAsync();
+        await instance.StopAsync(expired.Token);
+
+        Assert.Equal(1, log.Count(LogLevel.Warning, "stop out of time"));
+        await instance.DisposeAsync();
+        var offline = await MqttTestEnvironment.NextAsync(received);
+        Assert.Equal(("offline", "connection lost"), (Status(offline), Property(offline, "reason")));
     }
 
     [Fact]

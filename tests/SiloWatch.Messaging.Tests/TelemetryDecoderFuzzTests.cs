@@ -18,8 +18,6 @@ public sealed class TelemetryDecoderFuzzTests
         """{"samples":[{"sensor":"SG-R1-060","value":-0.25,"unit":"mV\/V","ts":1796120102000}],"ts":"2026-12-01T10:15:02Z","seq":0}""",
     ];
 
-    private static readonly byte[] Interesting = Encoding.UTF8.GetBytes("{}[]\",:\\0123456789.eE+-ntfu\u00e9\u20ac\ud83d\ude00 \t\n");
-
     [Fact]
     public void RandomBytesNeverThrowAndEveryRejectionCarriesAReason()
     {
@@ -46,7 +44,7 @@ public sealed class TelemetryDecoderFuzzTests
         var seeds = Seeds.Select(Encoding.UTF8.GetBytes).ToArray();
         for (var i = 0; i < Cases; i++)
         {
-            var payload = Mutate(seeds[i % seeds.Length], random);
+            var payload = PayloadMutator.Mutate(seeds[i % seeds.Length], random);
             Run(decoder, payload, i);
         }
     }
@@ -80,40 +78,5 @@ public sealed class TelemetryDecoderFuzzTests
         Assert.Equal(receiver.Samples, outcome.Accepted);
         Assert.Equal(receiver.Rejections, outcome.Rejected);
         Assert.True(outcome.MissingMessages >= 0);
-    }
-
-    private static byte[] Mutate(byte[] seed, Random random)
-    {
-        var bytes = new List<byte>(seed);
-        var mutations = random.Next(1, 6);
-        for (var m = 0; m < mutations && bytes.Count > 0; m++)
-        {
-            var at = random.Next(bytes.Count);
-            switch (random.Next(6))
-            {
-                case 0:
-                    bytes[at] = Interesting[random.Next(Interesting.Length)];
-                    break;
-                case 1:
-                    bytes.RemoveAt(at);
-                    break;
-                case 2:
-                    bytes.Insert(at, Interesting[random.Next(Interesting.Length)]);
-                    break;
-                case 3:
-                    bytes[at] = (byte)random.Next(256);
-                    break;
-                case 4:
-                    // Duplicate a slice: nested or repeated structures.
-                    var length = Math.Min(random.Next(1, 40), bytes.Count - at);
-                    bytes.InsertRange(at, bytes.GetRange(at, length));
-                    break;
-                default:
-                    bytes.RemoveRange(at, bytes.Count - at); // truncation
-                    break;
-            }
-        }
-
-        return [.. bytes];
     }
 }

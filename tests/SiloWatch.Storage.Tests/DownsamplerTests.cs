@@ -75,6 +75,55 @@ public sealed class DownsamplerTests
     }
 
     [Fact]
+    public async Task AWriterStalledWithItsPointsStillQueuedHasItsIntervalWrittenOnceWhole()
+    {
+        // A worker starved of CPU for 5 s between two points of one second: by wall-clock silence the
+        // interval would be written with the first two points and written again once the rest came.
+        await using var sink = Create();
+        var s = Sensor();
+        sink.CloseIdleByCaller(s);
+        sink.Write(s, 5_000, [1, 10, 0]);
+        sink.Write(s, 5_100, [3, 30, 0]);
+
+        _time.Advance(TimeSpan.FromSeconds(5));
+        Assert.Empty(_inner.Points);
+
+        sink.Write(s, 5_500, [5, 50, 0]);
+        sink.Write(s, 5_900, [7, 70, 0]);
+        sink.Write(s, 6_000, [9, 90, 0]);
+
+        var p = Assert.Single(_inner.Points);
+        Assert.Equal(5_000, p.TimestampMs);
+        Assert.Equal(40, p.Fields["value"], 12); // (10+30+50+70)/4: every point of the second, once
+        Assert.Equal(0, sink.Health.LatePoints);
+    }
+
+    [Fact]
+    public async Task TheWriterClosesAnIdleIntervalOnceItsSourceHasBeenSilentForTwoIntervals()
+    {
+        await using var sink = Create();
+        var s = Sensor();
+        var other = Some.SensorSeries("ds-timer");
+        sink.CloseIdleByCaller(s);
+        sink.Write(s, 5_000, [1, 10, 0]);
+        sink.Write(s, 5_100, [3, 30, 0]);
+        sink.Write(other, 5_000, [1, 10, 0]);
+
+        Assert.False(sink.CloseIfIdle(s, TimeSpan.FromSeconds(1.9)));
+        Assert.Empty(_inner.Points);
+        Assert.True(sink.CloseIfIdle(s, TimeSpan.FromSeconds(2)));
+        var p = Assert.Single(_inner.Points);
+        Assert.Equal(s.Tags, p.Series.Tags);
+        Assert.Equal(20, p.Fields["value"], 12);
+        Assert.False(sink.CloseIfIdle(s, TimeSpan.FromSeconds(3))); // written already, nothing new
+
+        // A series not taken over keeps the wall-clock rule.
+        _time.Advance(TimeSpan.FromSeconds(3));
+        Assert.Equal(2, _inner.Points.Count);
+        Assert.Equal(other.Tags, _inner.Points[1].Series.Tags);
+    }
+
+    [Fact]
     public async Task ASilentSeriesIsWrittenAfterTwoIntervalsAndALatePointOfTheSameIntervalRewritesIt()
     {
         await using var sink = Create();

@@ -109,6 +109,24 @@ public sealed class JournalTests : IDisposable
     }
 
     [Fact]
+    public void SnapshotsSavedTogetherAreAllStoredOrNoneIs()
+    {
+        using (var journal = Open())
+        {
+            journal.SaveSnapshot("brackenford/S1", "ingest-checkpoint", "{\"v\":0}");
+            journal.SaveSnapshots([("brackenford/S1", "ingest-checkpoint", "{\"v\":1}"), ("brackenford/S2", "ingest-checkpoint", "{\"v\":2}")]);
+
+            // One bad entry: nothing of the batch is written, the earlier snapshots stay.
+            Assert.Throws<ArgumentException>(() => journal.SaveSnapshots([("brackenford/S1", "ingest-checkpoint", "{\"v\":9}"), ("", "ingest-checkpoint", "{}")]));
+        }
+
+        using var reopened = Open();
+        Assert.Equal("{\"v\":1}", reopened.LoadSnapshot("brackenford/S1", "ingest-checkpoint"));
+        Assert.Equal("{\"v\":2}", reopened.LoadSnapshot("brackenford/S2", "ingest-checkpoint"));
+        Assert.Equal(2, reopened.LoadSnapshots("ingest-checkpoint").Count);
+    }
+
+    [Fact]
     public void AnEventInProgressIsFoundAfterARestartAndClosedByAnUpdate()
     {
         long id;

@@ -26,7 +26,9 @@ public sealed class EvaluationOptions
     public const string SectionName = "Evaluation";
 
     /// <summary>
-    /// Wall (default): each silo is evaluated every Instance:PublishInterval at the service's clock.
+    /// Wall (default): each silo is evaluated at the service's clock, as soon as a message's new
+    /// samples have been processed (at most once per Instance:MinEvaluationInterval) and, without new
+    /// samples, every Instance:PublishInterval, so staleness, alarm delays and shelving expiry keep time.
     /// Samples: each silo is evaluated every <see cref="SampleInterval"/> of its samples' own time, for
     /// replays and accelerated simulations whose timestamps lie in the past (set Decoder:MaxLateness=0).
     /// With Samples a silo whose feed stops is not evaluated further: never use it for live monitoring.

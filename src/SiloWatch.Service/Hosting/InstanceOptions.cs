@@ -1,4 +1,6 @@
 using System.ComponentModel.DataAnnotations;
+using System.Globalization;
+using Microsoft.Extensions.Options;
 
 namespace SiloWatch.Service.Hosting;
 
@@ -60,8 +62,30 @@ public sealed class InstanceOptions
     [Range(1, 65535)]
     public int CheckpointMessages { get; set; } = 1000;
 
-    /// <summary>Interval at which estimates are evaluated and published. Default 1 s.</summary>
+    /// <summary>
+    /// A silo that receives no new samples is evaluated (estimate, wall, alarms) and its state
+    /// published at least this often, at the service's clock: staleness, alarm on/off delays and
+    /// shelving expiry are timed by it. Default 1 s; 1 ms .. 1 h.
+    /// </summary>
     public TimeSpan PublishInterval { get; set; } = TimeSpan.FromSeconds(1);
+
+    /// <summary>
+    /// A silo is evaluated as soon as a message's new samples have been processed, but no more often
+    /// than this: a state follows its newest sample within this interval, and a fast feed costs at
+    /// most one evaluation and one state message per silo and interval. 0 evaluates after every
+    /// message with samples. Default 25 ms; 0 .. PublishInterval. (With Evaluation:Clock Samples,
+    /// replays, the evaluation follows the samples' time and this is not used.)
+    /// </summary>
+    public TimeSpan MinEvaluationInterval { get; set; } = TimeSpan.FromMilliseconds(25);
+
+    /// <summary>
+    /// At stop, the partition queues are drained for at most this long; what is still queued then is
+    /// left unacknowledged (the broker delivers it again to the persistent session) and each worker
+    /// checkpoints what it has processed. Keep it well below the host's shutdown timeout (20 s), which
+    /// must also cover the checkpoint, the store flush, the last states and the disconnect.
+    /// Default 8 s; 0 .. 1 min.
+    /// </summary>
+    public TimeSpan StopDrainTimeout { get; set; } = TimeSpan.FromSeconds(8);
 
     /// <summary>Interval of the per-silo summary line in the log (0 = off). Default 10 s.</summary>
     public TimeSpan LogInterval { get; set; } = TimeSpan.FromSeconds(10);
@@ -71,4 +95,29 @@ public enum QueueFullMode
 {
     Wait,
     Drop,
+}
+
+/// <summary>Checks the durations of <see cref="InstanceOptions"/> at start-up; each failure names the key and the value.</summary>
+public sealed class InstanceOptionsValidator : IValidateOptions<InstanceOptions>
+{
+    public ValidateOptionsResult Validate(string? name, InstanceOptions options)
+    {
+        ArgumentNullException.ThrowIfNull(options);
+        var failures = new List<string>();
+        void Check(string key, TimeSpan value, TimeSpan min, TimeSpan max)
+        {
+            if (value < min || value > max)
+            {
+                failures.Add(string.Create(CultureInfo.InvariantCulture, $"{InstanceOptions.SectionName}:{key} = '{value}': must be {min:c} .. {max:c}"));
+            }
+        }
+
+        Check(nameof(options.PublishInterval), options.PublishInterval, TimeSpan.FromMilliseconds(1), TimeSpan.FromHours(1));
+        Check(nameof(options.MinEvaluationInterval), options.MinEvaluationInterval, TimeSpan.Zero,
+            options.PublishInterval > TimeSpan.Zero ? options.PublishInterval : TimeSpan.Zero);
+        Check(nameof(options.CheckpointInterval), options.CheckpointInterval, TimeSpan.FromMilliseconds(1), TimeSpan.FromHours(1));
+        Check(nameof(options.StopDrainTimeout), options.StopDrainTimeout, TimeSpan.Zero, TimeSpan.FromMinutes(1));
+        Check(nameof(options.LogInterval), options.LogInterval, TimeSpan.Zero, TimeSpan.FromDays(1));
+        return failures.Count == 0 ? ValidateOptionsResult.Success : ValidateOptionsResult.Fail(failures);
+    }
 }

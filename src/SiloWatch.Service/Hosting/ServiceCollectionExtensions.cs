@@ -35,6 +35,7 @@ public static class ServiceCollectionExtensions
     {
         var section = builder.Configuration.GetSection(InstanceOptions.SectionName);
         builder.Services.AddOptions<InstanceOptions>().Bind(section).ValidateDataAnnotations().ValidateOnStart();
+        builder.Services.AddSingleton<IValidateOptions<InstanceOptions>, InstanceOptionsValidator>();
         var instance = section.Get<InstanceOptions>() ?? new InstanceOptions();
 
         var materialsPath = builder.Environment.ResolvePath(instance.MaterialsFile);

@@ -49,9 +49,13 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
         }
 
         await sink.FlushStoredAsync(ct).ConfigureAwait(false);
+        if (captured.Count > 0)
+        {
+            journal.SaveSnapshots([.. captured.Select(c => (c.Pipeline.Silo.Key, Kind, JsonSerializer.Serialize(c.Checkpoint, Json)))]);
+        }
+
         foreach (var (pipeline, checkpoint) in captured)
         {
-            journal.SaveSnapshot(pipeline.Silo.Key, Kind, JsonSerializer.Serialize(checkpoint, Json));
             pipeline.LastCheckpoint = checkpoint;
         }
 

@@ -21,19 +21,18 @@ public sealed class OutboundPublisher(OutboundQueue outbound, IngestCounters cou
     public async Task RunAsync(SupervisedMqttClient client, CancellationToken ct)
     {
         ArgumentNullException.ThrowIfNull(client);
-        var reader = outbound.Reader;
         var batch = new List<OutboundMessage>(MaxBatch);
         var outgoing = new List<MqttOutgoing>(MaxBatch);
         try
         {
             while (true)
             {
-                if (batch.Count == 0 && !await reader.WaitToReadAsync(ct).ConfigureAwait(false))
+                if (batch.Count == 0 && !await outbound.WaitToReadAsync(ct).ConfigureAwait(false))
                 {
                     return; // completed and drained
                 }
 
-                while (batch.Count < MaxBatch && reader.TryRead(out var next))
+                while (batch.Count < MaxBatch && outbound.TryRead(out var next))
                 {
                     batch.Add(next);
                 }

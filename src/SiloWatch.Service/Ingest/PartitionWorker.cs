@@ -3,10 +3,19 @@ using System.Threading.Channels;
 namespace SiloWatch.Service.Ingest;
 
 /// <summary>
-/// One worker loop: drains its partition's queue, one silo pipeline at a time, publishes the
-/// estimates of its silos each interval, and checkpoints them (see <see cref="IngestCheckpoints"/>)
-/// at least every checkpoint interval, acknowledging the messages a checkpoint covers. No locks: a
-/// silo belongs to exactly one worker.
+/// One worker loop: drains its partition's queue, one silo pipeline at a time, evaluates and
+/// publishes its silos, and checkpoints them (see <see cref="IngestCheckpoints"/>) at least every
+/// checkpoint interval, acknowledging the messages a checkpoint covers. No locks: a silo belongs to
+/// exactly one worker.
+/// <para>
+/// When a silo's message brings new samples, the silo is evaluated at once, or, when its last
+/// evaluation is less than the minimum evaluation interval ago, as soon as that interval has passed:
+/// its state follows its newest sample within the minimum interval, and a fast feed is evaluated no
+/// more often than that. A silo not evaluated for a publish interval (no new samples) is evaluated
+/// on the service clock then, because staleness, alarm delays and shelving expiry run on that clock.
+/// Evaluating at the samples' own time (<see cref="SiloPipeline.FollowsSampleTime"/>, replays) keeps
+/// the publish interval only.
+/// </para>
 /// </summary>
 public sealed class PartitionWorker
 {
@@ -14,10 +23,17 @@ public sealed class PartitionWorker
     private readonly List<SiloPipeline> _pipelines = [];
     private readonly List<AckTicket> _uncheckpointed = [];
     private readonly TimeProvider _time;
-    private readonly TimeSpan _publishInterval;
+    private readonly long _publishIntervalMs;
+    private readonly long _minEvaluationMs;
     private readonly string _instanceId;
     private readonly ILogger _logger;
     private readonly IngestCheckpoints _checkpoints;
+
+    // Each silo once, due a publish interval after its last evaluation (entries found early are put back).
+    private readonly PriorityQueue<SiloPipeline, long> _timed = new();
+
+    // Silos with new samples whose minimum interval since their last evaluation has not passed yet.
+    private readonly PriorityQueue<SiloPipeline, long> _held = new();
     private DateTimeOffset _nextCheckpoint = DateTimeOffset.MaxValue;
     private DateTimeOffset _lastCheckpoint = DateTimeOffset.MinValue;
 
@@ -28,9 +44,11 @@ public sealed class PartitionWorker
     /// </summary>
     public static readonly TimeSpan IdleCheckpointGap = TimeSpan.FromMilliseconds(50);
 
-    public PartitionWorker(int index, int capacity, TimeProvider time, TimeSpan publishInterval, string instanceId, ILogger logger,
-        IngestCheckpoints checkpoints)
+    public PartitionWorker(int index, int capacity, TimeProvider time, TimeSpan publishInterval, TimeSpan minEvaluationInterval,
+        string instanceId, ILogger logger, IngestCheckpoints checkpoints)
     {
+        ArgumentOutOfRangeException.ThrowIfLessThanOrEqual(publishInterval, TimeSpan.Zero);
+        ArgumentOutOfRangeException.ThrowIfLessThan(minEvaluationInterval, TimeSpan.Zero);
         _checkpoints = checkpoints;
         Index = index;
         _queue = Channel.CreateBounded<IngestMessage>(new BoundedChannelOptions(capacity)
@@ -40,7 +58,8 @@ public sealed class PartitionWorker
             SingleWriter = false,
         });
         _time = time;
-        _publishInterval = publishInterval;
+        _publishIntervalMs = Math.Max(1, (long)publishInterval.TotalMilliseconds);
+        _minEvaluationMs = Math.Min(_publishIntervalMs, (long)minEvaluationInterval.TotalMilliseconds);
         _instanceId = instanceId;
         _logger = logger;
     }
@@ -60,18 +79,40 @@ public sealed class PartitionWorker
 
     private int _uncheckpointedCount;
 
+    /// <summary>Messages taken from the queue, processed, and their silo evaluated or scheduled.</summary>
+    public long MessagesProcessed => Interlocked.Read(ref _processed);
+
+    private long _processed;
+
+    /// <summary>
+    /// While the worker waits with nothing to do: the moment its wait ends (the next evaluation or
+    /// checkpoint due, unless a message comes first), on the worker's clock; null while it works.
+    /// </summary>
+    public DateTimeOffset? WaitingUntil => Volatile.Read(ref _waitingUntilMs) is var ms && ms == Working ? null : DateTimeOffset.FromUnixTimeMilliseconds(Math.Min(ms, MaxWaitMs));
+
+    private const long Working = long.MinValue;
+    private static readonly long MaxWaitMs = DateTimeOffset.MaxValue.ToUnixTimeMilliseconds();
+    private long _waitingUntilMs = Working;
+
     /// <summary>Runs until the queue is completed and drained; then publishes a last estimate of every silo.</summary>
     public async Task RunAsync(CancellationToken stoppingToken)
     {
         var reader = _queue.Reader;
-        var nextPublish = _time.GetUtcNow() + _publishInterval;
-        while (true)
+        var startMs = NowMs();
+        foreach (var pipeline in _pipelines)
+        {
+            pipeline.EvaluatedAtMs = long.MinValue / 2; // not yet: the first message's samples are evaluated at once
+            _timed.Enqueue(pipeline, startMs + _publishIntervalMs);
+        }
+
+        while (!_cut)
         {
             if (stoppingToken.IsCancellationRequested)
             {
                 return; // a hard stop
             }
 
+            EvaluateDue(NowMs());
             var checkpointAt = _nextCheckpoint;
             if (reader.Count == 0 && _uncheckpointed.Count > 0)
             {
@@ -84,12 +125,13 @@ public sealed class PartitionWorker
                 }
             }
 
-            var wake = nextPublish < checkpointAt ? nextPublish : checkpointAt;
-            var wait = wake - _time.GetUtcNow();
+            var wakeMs = Math.Min(NextDueMs(), checkpointAt == DateTimeOffset.MaxValue ? long.MaxValue : checkpointAt.ToUnixTimeMilliseconds());
+            var wait = TimeSpan.FromMilliseconds(Math.Min(wakeMs - NowMs(), (long)TimeSpan.FromDays(1).TotalMilliseconds));
             if (wait > TimeSpan.Zero && reader.Count == 0)
             {
                 using var timeout = new CancellationTokenSource(wait, _time);
                 using var abort = stoppingToken.Register(static t => ((CancellationTokenSource)t!).Cancel(), timeout);
+                Volatile.Write(ref _waitingUntilMs, wakeMs);
                 try
                 {
                     if (!await reader.WaitToReadAsync(timeout.Token).ConfigureAwait(false))
@@ -99,7 +141,7 @@ public sealed class PartitionWorker
                 }
                 catch (OperationCanceledException) when (timeout.IsCancellationRequested)
                 {
-                    // Publish interval reached, or a hard stop: the normal stop completes the queue instead.
+                    // An evaluation or a checkpoint is due, or a hard stop: the normal stop completes the queue instead.
                     if (stoppingToken.IsCancellationRequested)
                     {
                         return;
@@ -107,20 +149,24 @@ public sealed class PartitionWorker
                 }
             }
 
-            while (reader.TryRead(out var message))
+            Volatile.Write(ref _waitingUntilMs, Working);
+            while (!_cut && !stoppingToken.IsCancellationRequested && reader.TryRead(out var message))
             {
+                var pipeline = message.Pipeline;
                 try
                 {
-                    message.Pipeline.Process(message.Buffer.AsSpan(0, message.Length), message.ReceivedMs);
+                    pipeline.Process(message.Buffer.AsSpan(0, message.Length), message.ReceivedMs);
                 }
                 catch (Exception ex)
                 {
                     // Input cannot crash the service: the decoder does not throw on bad input, so this is a bug; keep going.
-                    _logger.LogError(ex, "Processing a message of {Silo} failed", message.Pipeline.Silo.Key);
+                    _logger.LogError(ex, "Processing a message of {Silo} failed", pipeline.Silo.Key);
                 }
                 finally
                 {
                     message.Release();
+                    pipeline.Dequeued();
+                    pipeline.LastProcessedMs = NowMs();
                 }
 
                 if (message.Ticket is { } ticket)
@@ -134,16 +180,27 @@ public sealed class PartitionWorker
                     Volatile.Write(ref _uncheckpointedCount, _uncheckpointed.Count);
                 }
 
-                if (_time.GetUtcNow() >= nextPublish || _uncheckpointed.Count >= _checkpoints.MaxMessages)
+                var nowMs = NowMs();
+                if (pipeline.HasUnevaluatedSamples && !pipeline.FollowsSampleTime && !pipeline.Held)
+                {
+                    var dueMs = pipeline.EvaluatedAtMs + _minEvaluationMs;
+                    if (nowMs >= dueMs)
+                    {
+                        Evaluate(pipeline, nowMs);
+                    }
+                    else
+                    {
+                        pipeline.Held = true;
+                        _held.Enqueue(pipeline, dueMs);
+                    }
+                }
+
+                EvaluateDue(nowMs);
+                Interlocked.Increment(ref _processed);
+                if (_uncheckpointed.Count >= _checkpoints.MaxMessages || _time.GetUtcNow() >= _nextCheckpoint)
                 {
                     break;
                 }
-            }
-
-            if (_time.GetUtcNow() >= nextPublish)
-            {
-                PublishAll();
-                nextPublish = _time.GetUtcNow() + _publishInterval;
             }
 
             if (_uncheckpointed.Count >= _checkpoints.MaxMessages || _time.GetUtcNow() >= _nextCheckpoint)
@@ -157,9 +214,109 @@ public sealed class PartitionWorker
             }
         }
 
+        if (_cut)
+        {
+            LeaveQueued();
+        }
+
         PublishAll();
         SaveSnapshots();
         await CheckpointAsync(stoppingToken).ConfigureAwait(false);
+    }
+
+    /// <summary>
+    /// Stop cut short (the drain took too long): the worker processes no more messages, leaves those
+    /// still queued unacknowledged for the broker to deliver again to the session, publishes, saves
+    /// and checkpoints what it has processed, and ends. Any thread.
+    /// </summary>
+    public void Cut() => _cut = true;
+
+    /// <summary>Messages left in the queue by <see cref="Cut"/>, for the broker to redeliver.</summary>
+    public long LeftQueued => Interlocked.Read(ref _leftQueued);
+
+    private volatile bool _cut;
+    private long _leftQueued;
+
+    private void LeaveQueued()
+    {
+        while (_queue.Reader.TryRead(out var message))
+        {
+            message.Release();
+            message.Pipeline.Dequeued();
+            if (message.Ticket is { } ticket)
+            {
+                _checkpoints.Acks.Abandon(ticket);
+            }
+
+            Interlocked.Increment(ref _leftQueued);
+        }
+    }
+
+    private long NowMs() => _time.GetUtcNow().ToUnixTimeMilliseconds();
+
+    /// <summary>The earliest moment a held or a timed evaluation is due.</summary>
+    private long NextDueMs()
+    {
+        var next = long.MaxValue;
+        if (_held.TryPeek(out _, out var held))
+        {
+            next = held;
+        }
+
+        if (_timed.TryPeek(out _, out var timed) && timed < next)
+        {
+            next = timed;
+        }
+
+        return next;
+    }
+
+    /// <summary>Evaluates the held silos whose minimum interval has passed and the silos a publish interval has passed without evaluation.</summary>
+    private void EvaluateDue(long nowMs)
+    {
+        while (_held.TryPeek(out var pipeline, out var due) && due <= nowMs)
+        {
+            _held.Dequeue();
+            var dueMs = pipeline.EvaluatedAtMs + _minEvaluationMs;
+            if (dueMs > nowMs)
+            {
+                _held.Enqueue(pipeline, dueMs); // evaluated on the clock meanwhile: its minimum interval starts again
+                continue;
+            }
+
+            pipeline.Held = false;
+            if (pipeline.HasUnevaluatedSamples)
+            {
+                Evaluate(pipeline, nowMs);
+            }
+        }
+
+        while (_timed.TryPeek(out var pipeline, out var due) && due <= nowMs)
+        {
+            _timed.Dequeue();
+            pipeline.CloseIdleIntervals(nowMs);
+            var dueMs = pipeline.EvaluatedAtMs + _publishIntervalMs;
+            if (dueMs <= nowMs)
+            {
+                Evaluate(pipeline, nowMs);
+                dueMs = nowMs + _publishIntervalMs;
+            }
+
+            _timed.Enqueue(pipeline, dueMs);
+        }
+    }
+
+    private void Evaluate(SiloPipeline pipeline, long nowMs)
+    {
+        pipeline.EvaluatedAtMs = nowMs;
+        try
+        {
+            pipeline.Publish(nowMs, _instanceId);
+        }
+        catch (Exception ex)
+        {
+            _logger.LogError(ex, "Evaluating the estimate of {Silo} failed", pipeline.Silo.Key);
+        }
     }
 
     private async Task CheckpointAsync(CancellationToken stoppingToken)
@@ -208,17 +365,10 @@ public sealed class PartitionWorker
 
     private void PublishAll()
     {
-        var now = _time.GetUtcNow().ToUnixTimeMilliseconds();
+        var now = NowMs();
         foreach (var pipeline in _pipelines)
         {
-            try
-            {
-                pipeline.Publish(now, _instanceId);
-            }
-            catch (Exception ex)
-            {
-                _logger.LogError(ex, "Evaluating the estimate of {Silo} failed", pipeline.Silo.Key);
-            }
+            Evaluate(pipeline, now);
         }
     }
 }

@@ -40,6 +40,51 @@ public sealed class SiloPipeline : ITelemetryReceiver
         _rejectLog = rejectLog;
         _deadLetterTopic = topics.DeadLetter(silo.SiteId, silo.SiloId);
         _stateTopic = topics.State(silo.SiteId, silo.SiloId);
+        if (sink is IIdleIntervalClose idle)
+        {
+            // This silo's worker knows when its feed is idle (nothing queued, nothing processed for a while);
+            // a wall-clock timer would also close the intervals of a worker stalled with messages queued.
+            _idleClose = idle;
+            foreach (var sensor in silo.Sensors)
+            {
+                idle.CloseIdleByCaller(series.Sensor(silo.Index, sensor.Index));
+            }
+
+            idle.CloseIdleByCaller(series.Estimate(silo.Index));
+        }
+    }
+
+    private readonly IIdleIntervalClose? _idleClose;
+    private int _queued;
+
+    /// <summary>Messages of this silo routed to its worker's queue and not yet processed (any thread).</summary>
+    public int Queued => Volatile.Read(ref _queued);
+
+    /// <summary>A message of this silo is on its way to the worker's queue (the receive callback, before writing it).</summary>
+    public void Enqueuing() => Interlocked.Increment(ref _queued);
+
+    /// <summary>A message counted by <see cref="Enqueuing"/> was processed, dropped or not taken.</summary>
+    public void Dequeued() => Interlocked.Decrement(ref _queued);
+
+    /// <summary>The worker's clock when it last processed a message of this silo (worker only).</summary>
+    internal long LastProcessedMs { get; set; } = long.MinValue;
+
+    /// <summary>
+    /// Writes the open downsampling intervals of the silo's sensors once its feed is really idle:
+    /// nothing queued for it and nothing processed for two intervals of the worker's clock. Worker only.
+    /// </summary>
+    public void CloseIdleIntervals(long nowMs)
+    {
+        if (_idleClose is null || Queued > 0 || LastProcessedMs == long.MinValue)
+        {
+            return;
+        }
+
+        var silent = TimeSpan.FromMilliseconds(nowMs - LastProcessedMs);
+        foreach (var sensor in Silo.Sensors)
+        {
+            _idleClose.CloseIfIdle(_series.Sensor(Silo.Index, sensor.Index), silent);
+        }
     }
 
     public SiloRef Silo { get; }
@@ -54,6 +99,18 @@ public sealed class SiloPipeline : ITelemetryReceiver
 
     /// <summary>The silo's wall watch and alarm engine; null when the service runs without them.</summary>
     public SiloAlarms? Alarms { get; private set; }
+
+    /// <summary>True when the evaluation follows the samples' own time (replays): the worker then evaluates on its publish interval only.</summary>
+    public bool FollowsSampleTime => Alarms is { FollowSamples: true };
+
+    /// <summary>True when samples reached the monitor since the last evaluation.</summary>
+    public bool HasUnevaluatedSamples { get; private set; }
+
+    /// <summary>The worker's schedule: service-clock time of the silo's last evaluation (worker only).</summary>
+    internal long EvaluatedAtMs { get; set; } = long.MinValue;
+
+    /// <summary>The worker's schedule: the silo waits for its minimum evaluation interval (worker only).</summary>
+    internal bool Held { get; set; }
 
     /// <summary>Attaches the wall watch and alarms (before the workers start).</summary>
     public void AttachAlarms(SiloAlarms alarms) => Alarms = alarms ?? throw new ArgumentNullException(nameof(alarms));
@@ -104,6 +161,7 @@ public sealed class SiloPipeline : ITelemetryReceiver
     private InventoryEstimate Evaluate(long nowMs, string instanceId)
     {
         _lastEvaluatedMs = nowMs;
+        HasUnevaluatedSamples = false;
         var estimate = Monitor.Evaluate(nowMs);
         LastEstimate = estimate;
         Span<double> fields =
@@ -116,7 +174,7 @@ public sealed class SiloPipeline : ITelemetryReceiver
             (double)estimate.Quality,
         ];
         _sink.Write(_series.Estimate(Silo.Index), estimate.TimestampMs, fields);
-        _outbound.Enqueue(new OutboundMessage(_stateTopic, StatePayload.Encode(estimate, instanceId, _newestSampleMs == long.MinValue ? null : _newestSampleMs), Retain: true, MqttQualityOfServiceLevel.AtLeastOnce));
+        _outbound.EnqueueLatest(new OutboundMessage(_stateTopic, StatePayload.Encode(estimate, instanceId, _newestSampleMs == long.MinValue ? null : _newestSampleMs), Retain: true, MqttQualityOfServiceLevel.AtLeastOnce));
         Alarms?.Evaluate(Monitor, nowMs, estimate);
         return estimate;
     }
@@ -186,6 +244,7 @@ public sealed class SiloPipeline : ITelemetryReceiver
     void ITelemetryReceiver.OnSample(in TelemetrySample sample)
     {
         Monitor.OnSample(sample);
+        HasUnevaluatedSamples = true;
         if (sample.TimestampMs > _newestSampleMs)
         {
             _newestSampleMs = sample.TimestampMs;

@@ -49,18 +49,37 @@ public sealed class TelemetryBridgeService(
             instance.Value.Id, ingest.Pipelines.Count(), ingest.Workers.Count, host, port);
     }
 
+    /// <summary>
+    /// Stops in order and within <paramref name="cancellationToken"/> (the host's shutdown timeout):
+    /// drain the queues for at most Instance:StopDrainTimeout (the rest stays with the broker), let the
+    /// workers take their last checkpoint, save the snapshots, flush the store, publish the last states
+    /// (at most 5 s), then say offline and disconnect (at most 5 s). The workers have ended before this
+    /// returns, so nothing writes to the store once the host disposes it.
+    /// </summary>
     public async Task StopAsync(CancellationToken cancellationToken)
     {
+        var workersEnded = true;
         try
         {
-            await ingest.DrainAsync(cancellationToken).ConfigureAwait(false);
+            await ingest.DrainAsync(instance.Value.StopDrainTimeout, cancellationToken).ConfigureAwait(false);
         }
         catch (OperationCanceledException)
         {
-            _logger.LogWarning("Stop timed out while draining the ingest queues");
+            _logger.LogWarning("Stop timed out while draining the ingest queues; the workers are stopped without a last checkpoint");
+            await _stopping.CancelAsync().ConfigureAwait(false);
+            workersEnded = await ingest.WaitForWorkersAsync(TimeSpan.FromSeconds(2)).ConfigureAwait(false);
+            if (!workersEnded)
+            {
+                _logger.LogError("Stop: a worker did not end within 2 s of its hard stop");
+            }
         }
 
-        ingest.SaveSnapshots(journal);
+        if (workersEnded)
+        {
+            // The workers own the monitors while they run.
+            ingest.SaveSnapshots(journal);
+        }
+
         try
         {
             await sink.FlushAsync(cancellationToken).ConfigureAwait(false);
@@ -83,7 +102,9 @@ public sealed class TelemetryBridgeService(
         await _stopping.CancelAsync().ConfigureAwait(false);
         if (_client is not null)
         {
-            await _client.StopAsync(cancellationToken).ConfigureAwait(false);
+            using var bounded = CancellationTokenSource.CreateLinkedTokenSource(cancellationToken);
+            bounded.CancelAfter(TimeSpan.FromSeconds(5));
+            await _client.StopAsync(bounded.Token).ConfigureAwait(false);
         }
     }
 

@@ -50,7 +50,7 @@ public sealed class TelemetryIngest
         var partitions = options.Partitions > 0 ? options.Partitions : Environment.ProcessorCount;
         partitions = Math.Max(1, Math.Min(partitions, Math.Max(1, shard.Owned.Count)));
         _workers = [.. Enumerable.Range(0, partitions).Select(i =>
-            new PartitionWorker(i, options.QueueCapacity, time, options.PublishInterval, options.Id, logger, _checkpoints))];
+            new PartitionWorker(i, options.QueueCapacity, time, options.PublishInterval, options.MinEvaluationInterval, options.Id, logger, _checkpoints))];
         _pipelinesByKey = new Dictionary<string, SiloPipeline>(StringComparer.Ordinal);
         _writerBySilo = new System.Threading.Channels.ChannelWriter<IngestMessage>[registry.Silos.Count];
         foreach (var silo in shard.Owned)
@@ -156,6 +156,7 @@ public sealed class TelemetryIngest
 
         var message = IngestMessage.Copy(pipeline, e.ApplicationMessage.Payload, receivedMs, ticket);
         var writer = _writerBySilo[pipeline.Silo.Index];
+        pipeline.Enqueuing();
         if (writer.TryWrite(message))
         {
             return false;
@@ -163,6 +164,7 @@ public sealed class TelemetryIngest
 
         if (_options.QueueFullMode == QueueFullMode.Drop)
         {
+            pipeline.Dequeued();
             _counters.QueueDroppedOne();
             message.Release();
             _rejectLog.Warn("queue-full", pipeline.Silo.SiteId, pipeline.Silo.SiloId, null, "partition queue full: message dropped");
@@ -177,6 +179,7 @@ public sealed class TelemetryIngest
         catch (System.Threading.Channels.ChannelClosedException)
         {
             // Stopping: not taken, so not acknowledged; the broker sends it again to the session.
+            pipeline.Dequeued();
             message.Release();
             _checkpoints.Acks.Abandon(ticket);
         }
@@ -277,7 +280,14 @@ public sealed class TelemetryIngest
     /// Stops taking messages, drains every queue, waits for the workers' last publish and checkpoint,
     /// and for the acknowledgements they release.
     /// </summary>
-    public async Task DrainAsync(CancellationToken cancellationToken)
+    public Task DrainAsync(CancellationToken cancellationToken) => DrainAsync(Timeout.InfiniteTimeSpan, cancellationToken);
+
+    /// <summary>
+    /// As <see cref="DrainAsync(CancellationToken)"/>, but the queues are drained for at most
+    /// <paramref name="budget"/>: then each worker is cut short (<see cref="PartitionWorker.Cut"/>), so it
+    /// leaves what is still queued to the broker, checkpoints what it has processed and ends.
+    /// </summary>
+    public async Task DrainAsync(TimeSpan budget, CancellationToken cancellationToken)
     {
         _accepting = false;
         foreach (var worker in _workers)
@@ -285,9 +295,42 @@ public sealed class TelemetryIngest
             worker.Writer.TryComplete();
         }
 
-        await Task.WhenAll(_running).WaitAsync(cancellationToken).ConfigureAwait(false);
+        var running = Task.WhenAll(_running);
+        try
+        {
+            await running.WaitAsync(budget, cancellationToken).ConfigureAwait(false);
+        }
+        catch (TimeoutException)
+        {
+            _logger.LogWarning("Stop: the ingest queues were not drained within {Budget} ({Messages} message(s) still queued); " +
+                "the rest is left to the broker for redelivery", budget, _workers.Sum(w => w.Depth));
+            foreach (var worker in _workers)
+            {
+                worker.Cut();
+            }
+
+            await running.WaitAsync(cancellationToken).ConfigureAwait(false);
+        }
+
         await _checkpoints.Acks.DrainAsync(cancellationToken).ConfigureAwait(false);
-        _logger.LogInformation("Ingest drained: {Messages} messages, {Samples} samples accepted, {Rejected} rejected",
-            _counters.Messages, _counters.Samples, _counters.RejectedTotal);
+        _logger.LogInformation("Ingest drained: {Messages} messages, {Samples} samples accepted, {Rejected} rejected, {Left} left queued for redelivery",
+            _counters.Messages, _counters.Samples, _counters.RejectedTotal, _workers.Sum(w => w.LeftQueued));
+    }
+
+    /// <summary>True once every worker has ended (drained, cut short or stopped hard).</summary>
+    public bool WorkersStopped => _running.All(t => t.IsCompleted);
+
+    /// <summary>Waits up to <paramref name="limit"/> for the workers to end (after a hard stop: they end at their next message or wake-up).</summary>
+    public async Task<bool> WaitForWorkersAsync(TimeSpan limit)
+    {
+        try
+        {
+            await Task.WhenAll(_running).WaitAsync(limit).ConfigureAwait(false);
+        }
+        catch (TimeoutException)
+        {
+        }
+
+        return WorkersStopped;
     }
 }
