@@ -185,6 +185,75 @@ public sealed class PartitionWorkerTests : IAsyncDisposable
         Assert.Equal(1 + Queued - Worker.LeftQueued, Assert.Single(checkpoint.Sequences).Highest);
     }
 
+    [Fact]
+    public async Task ACheckpointIsStoredAfterItsCaptureAndASiloWhoseCheckpointFailedIsCapturedAgain()
+    {
+        await SendAsync("S1");
+        var pipeline = _ingest.Pipelines.Single(p => p.Silo.Key == "brackenford/S1");
+        var journal = _app.Services.GetRequiredService<SiloWatch.Storage.Journal>();
+        var sink = new HeldFlushSink();
+        await using var acks = new AckWindow();
+        var checkpoints = new IngestCheckpoints(journal, sink, acks, TimeSpan.FromSeconds(1), 1000);
+        var before = pipeline.LastCheckpoint;
+        Assert.True(pipeline.NeedsCheckpoint);
+
+        // Captured at once; stored only once the store is flushed, and the worker is not held meanwhile.
+        var failing = checkpoints.Begin([pipeline], [], 1, CancellationToken.None);
+        Assert.False(failing.Done.IsCompleted);
+        Assert.False(pipeline.NeedsCheckpoint);
+        Assert.Null(journal.LoadSnapshot(pipeline.Silo.Key, IngestCheckpoints.Kind));
+        var processed = Worker.MessagesProcessed;
+        await SendAsync("S1");
+        Assert.Equal(processed + 1, Worker.MessagesProcessed);
+
+        sink.Complete(new IOException("the store is unreachable"));
+        await Assert.ThrowsAsync<IOException>(() => failing.Done);
+        Assert.False(checkpoints.Finish(failing));
+        Assert.True(pipeline.NeedsCheckpoint); // its messages must not be acknowledged on a later checkpoint that leaves it out
+        Assert.Same(before, pipeline.LastCheckpoint);
+        Assert.Null(journal.LoadSnapshot(pipeline.Silo.Key, IngestCheckpoints.Kind));
+        Assert.Equal(0, checkpoints.Saved);
+
+        var saving = checkpoints.Begin([pipeline], [], 2, CancellationToken.None);
+        Assert.False(saving.Done.IsCompleted);
+        sink.Complete(null);
+        await saving.Done;
+        Assert.True(checkpoints.Finish(saving));
+        Assert.Equal(2, Assert.IsType<IngestCheckpoint>(pipeline.LastCheckpoint).TakenMs);
+        Assert.Contains("\"TakenMs\":2", journal.LoadSnapshot(pipeline.Silo.Key, IngestCheckpoints.Kind), StringComparison.Ordinal);
+        Assert.Equal(1, checkpoints.Saved);
+    }
+
+    /// <summary>A store whose flush completes (or fails) only when the test says so.</summary>
+    private sealed class HeldFlushSink : SiloWatch.Storage.ITimeSeriesSink
+    {
+        private TaskCompletionSource _flush = new(TaskCreationOptions.RunContinuationsAsynchronously);
+
+        public SiloWatch.Storage.StorageHealth Health => new() { Backend = "held" };
+
+        public void Write(SiloWatch.Storage.SeriesKey series, long timestampMs, ReadOnlySpan<double> values)
+        {
+        }
+
+        public Task FlushAsync(CancellationToken ct) => _flush.Task;
+
+        public void Complete(Exception? error)
+        {
+            var flush = _flush;
+            _flush = new TaskCompletionSource(TaskCreationOptions.RunContinuationsAsynchronously);
+            if (error is null)
+            {
+                flush.SetResult();
+            }
+            else
+            {
+                flush.SetException(error);
+            }
+        }
+
+        public ValueTask DisposeAsync() => default;
+    }
+
     private IngestMessage Message(SiloPipeline pipeline, long seq)
     {
         var now = _time.GetUtcNow().ToUnixTimeMilliseconds();

@@ -36,32 +36,74 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
 
     private long _saved;
 
-    /// <summary>Checkpoints the silos of <paramref name="pipelines"/> that took messages, then acknowledges <paramref name="tickets"/> (cleared).</summary>
-    public async Task SaveAsync(IReadOnlyList<SiloPipeline> pipelines, List<AckTicket> tickets, long nowMs, CancellationToken ct)
+    /// <summary>
+    /// Begins a checkpoint of the silos of <paramref name="pipelines"/> that took messages: captures
+    /// them now (on the worker, so the capture is consistent), takes <paramref name="tickets"/> over
+    /// (the list is cleared) and starts the store flush and the journal save, which run while the
+    /// worker goes on processing. <see cref="Finish"/> acknowledges the tickets once that is done.
+    /// </summary>
+    public PendingCheckpoint Begin(IReadOnlyList<SiloPipeline> pipelines, List<AckTicket> tickets, long nowMs, CancellationToken ct)
     {
+        ArgumentNullException.ThrowIfNull(pipelines);
+        ArgumentNullException.ThrowIfNull(tickets);
         var captured = new List<(SiloPipeline Pipeline, IngestCheckpoint Checkpoint)>();
+        var saves = new List<(string SiloKey, string Kind, string Json)>();
         foreach (var pipeline in pipelines)
         {
             if (pipeline.NeedsCheckpoint)
             {
-                captured.Add((pipeline, pipeline.CaptureCheckpoint(nowMs)));
+                var checkpoint = pipeline.CaptureCheckpoint(nowMs);
+                captured.Add((pipeline, checkpoint));
+                saves.Add((pipeline.Silo.Key, Kind, JsonSerializer.Serialize(checkpoint, Json)));
             }
         }
 
-        await sink.FlushStoredAsync(ct).ConfigureAwait(false);
-        if (captured.Count > 0)
+        var taken = new List<AckTicket>(tickets);
+        tickets.Clear();
+        return new PendingCheckpoint(captured, taken, StoreAsync(saves, ct));
+    }
+
+    /// <summary>
+    /// After <see cref="PendingCheckpoint.Done"/> completed: when it succeeded, records the silos'
+    /// checkpoints and acknowledges the tickets (true); otherwise marks the silos as needing a
+    /// checkpoint again, so the next one covers them before their messages are acknowledged (false;
+    /// the tickets are the caller's again).
+    /// </summary>
+    public bool Finish(PendingCheckpoint pending)
+    {
+        ArgumentNullException.ThrowIfNull(pending);
+        if (!pending.Done.IsCompleted)
         {
-            journal.SaveSnapshots([.. captured.Select(c => (c.Pipeline.Silo.Key, Kind, JsonSerializer.Serialize(c.Checkpoint, Json)))]);
+            throw new InvalidOperationException("the checkpoint is still being stored");
         }
 
-        foreach (var (pipeline, checkpoint) in captured)
+        if (!pending.Done.IsCompletedSuccessfully)
+        {
+            foreach (var (pipeline, _) in pending.Captured)
+            {
+                pipeline.CheckpointNotSaved();
+            }
+
+            return false;
+        }
+
+        foreach (var (pipeline, checkpoint) in pending.Captured)
         {
             pipeline.LastCheckpoint = checkpoint;
         }
 
-        Interlocked.Add(ref _saved, captured.Count);
-        Acks.Complete(tickets);
-        tickets.Clear();
+        Interlocked.Add(ref _saved, pending.Captured.Count);
+        Acks.Complete(pending.Tickets);
+        return true;
+    }
+
+    private async Task StoreAsync(List<(string SiloKey, string Kind, string Json)> saves, CancellationToken ct)
+    {
+        await sink.FlushStoredAsync(ct).ConfigureAwait(false);
+        if (saves.Count > 0)
+        {
+            journal.SaveSnapshots(saves);
+        }
     }
 
     /// <summary>The silo's saved checkpoint, or null (none, or unreadable: <paramref name="problem"/> says why).</summary>
@@ -91,4 +133,23 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
             return null;
         }
     }
+}
+
+/// <summary>A checkpoint begun by <see cref="IngestCheckpoints.Begin"/>: its store flush and journal save in <see cref="Done"/>.</summary>
+public sealed class PendingCheckpoint
+{
+    internal PendingCheckpoint(List<(SiloPipeline Pipeline, IngestCheckpoint Checkpoint)> captured, List<AckTicket> tickets, Task done)
+    {
+        Captured = captured;
+        Tickets = tickets;
+        Done = done;
+    }
+
+    internal List<(SiloPipeline Pipeline, IngestCheckpoint Checkpoint)> Captured { get; }
+
+    /// <summary>The messages this checkpoint covers, acknowledged once it is saved.</summary>
+    public List<AckTicket> Tickets { get; }
+
+    /// <summary>The store flushed and the captures saved in the journal; faulted or cancelled when not.</summary>
+    public Task Done { get; }
 }

@@ -36,6 +36,7 @@ public sealed class PartitionWorker
     private readonly PriorityQueue<SiloPipeline, long> _held = new();
     private DateTimeOffset _nextCheckpoint = DateTimeOffset.MaxValue;
     private DateTimeOffset _lastCheckpoint = DateTimeOffset.MinValue;
+    private PendingCheckpoint? _pending; // the checkpoint being stored while the worker goes on
 
     /// <summary>
     /// When the queue runs dry with messages waiting for their checkpoint, it is taken this soon
@@ -97,6 +98,22 @@ public sealed class PartitionWorker
     /// <summary>Runs until the queue is completed and drained; then publishes a last estimate of every silo.</summary>
     public async Task RunAsync(CancellationToken stoppingToken)
     {
+        try
+        {
+            await RunLoopAsync(stoppingToken).ConfigureAwait(false);
+        }
+        finally
+        {
+            // Never leave a store flush or journal save running behind the worker: the host disposes them next.
+            if (_pending is { } pending)
+            {
+                await ((Task)pending.Done).ConfigureAwait(ConfigureAwaitOptions.SuppressThrowing);
+            }
+        }
+    }
+
+    private async Task RunLoopAsync(CancellationToken stoppingToken)
+    {
         var reader = _queue.Reader;
         var startMs = NowMs();
         foreach (var pipeline in _pipelines)
@@ -110,6 +127,11 @@ public sealed class PartitionWorker
             if (stoppingToken.IsCancellationRequested)
             {
                 return; // a hard stop
+            }
+
+            if (_pending is { Done.IsCompleted: true })
+            {
+                FinishPending();
             }
 
             EvaluateDue(NowMs());
@@ -131,6 +153,13 @@ public sealed class PartitionWorker
             {
                 using var timeout = new CancellationTokenSource(wait, _time);
                 using var abort = stoppingToken.Register(static t => ((CancellationTokenSource)t!).Cancel(), timeout);
+                if (_pending is { } inFlight)
+                {
+                    // The checkpoint in flight acknowledges its messages once stored: wake for it.
+                    _ = inFlight.Done.ContinueWith(static (_, t) => CancelQuietly((CancellationTokenSource)t!), timeout,
+                        CancellationToken.None, TaskContinuationOptions.ExecuteSynchronously, TaskScheduler.Default);
+                }
+
                 Volatile.Write(ref _waitingUntilMs, wakeMs);
                 try
                 {
@@ -141,7 +170,7 @@ public sealed class PartitionWorker
                 }
                 catch (OperationCanceledException) when (timeout.IsCancellationRequested)
                 {
-                    // An evaluation or a checkpoint is due, or a hard stop: the normal stop completes the queue instead.
+                    // An evaluation or a checkpoint is due, the one in flight is stored, or a hard stop: the normal stop completes the queue instead.
                     if (stoppingToken.IsCancellationRequested)
                     {
                         return;
@@ -177,7 +206,7 @@ public sealed class PartitionWorker
                     }
 
                     _uncheckpointed.Add(ticket);
-                    Volatile.Write(ref _uncheckpointedCount, _uncheckpointed.Count);
+                    CountUncheckpointed();
                 }
 
                 var nowMs = NowMs();
@@ -222,6 +251,7 @@ public sealed class PartitionWorker
         PublishAll();
         SaveSnapshots();
         await CheckpointAsync(stoppingToken).ConfigureAwait(false);
+        await FinishPendingAsync().ConfigureAwait(false);
     }
 
     /// <summary>
@@ -319,6 +349,11 @@ public sealed class PartitionWorker
         }
     }
 
+    /// <summary>
+    /// Begins a checkpoint of what was processed, once the one in flight (if any) is finished: the
+    /// worker waits for a store flush only when the previous checkpoint has not been stored by the
+    /// time the next is due, not for every checkpoint.
+    /// </summary>
     private async Task CheckpointAsync(CancellationToken stoppingToken)
     {
         if (stoppingToken.IsCancellationRequested)
@@ -326,25 +361,61 @@ public sealed class PartitionWorker
             return; // a hard stop: what is not checkpointed stays with the broker
         }
 
-        try
+        await FinishPendingAsync().ConfigureAwait(false);
+        if (stoppingToken.IsCancellationRequested)
         {
-            await _checkpoints.SaveAsync(_pipelines, _uncheckpointed, _time.GetUtcNow().ToUnixTimeMilliseconds(), stoppingToken).ConfigureAwait(false);
-            _nextCheckpoint = DateTimeOffset.MaxValue;
-            _lastCheckpoint = _time.GetUtcNow();
+            return;
         }
-        catch (Exception ex) when (ex is not OperationCanceledException)
+
+        _pending = _checkpoints.Begin(_pipelines, _uncheckpointed, _time.GetUtcNow().ToUnixTimeMilliseconds(), stoppingToken);
+        _nextCheckpoint = DateTimeOffset.MaxValue;
+        _lastCheckpoint = _time.GetUtcNow();
+        CountUncheckpointed();
+    }
+
+    private async Task FinishPendingAsync()
+    {
+        if (_pending is { } pending)
         {
-            // The messages stay unacknowledged (the broker keeps them) and the next checkpoint tries again.
-            _logger.LogError(ex, "Checkpoint of partition {Partition} failed; {Messages} message(s) stay unacknowledged", Index, _uncheckpointed.Count);
+            await ((Task)pending.Done).ConfigureAwait(ConfigureAwaitOptions.SuppressThrowing);
+            FinishPending();
+        }
+    }
+
+    /// <summary>The checkpoint in flight is done: its messages acknowledged, or (failed) kept for the next one.</summary>
+    private void FinishPending()
+    {
+        var pending = _pending!;
+        _pending = null;
+        if (!_checkpoints.Finish(pending))
+        {
+            _uncheckpointed.InsertRange(0, pending.Tickets);
+            if (pending.Done.Exception?.GetBaseException() is { } ex and not OperationCanceledException)
+            {
+                // The messages stay unacknowledged (the broker keeps them) and the next checkpoint tries again.
+                _logger.LogError(ex, "Checkpoint of partition {Partition} failed; {Messages} message(s) stay unacknowledged", Index, _uncheckpointed.Count);
+            }
+
             _nextCheckpoint = _time.GetUtcNow() + _checkpoints.Interval;
             _lastCheckpoint = _time.GetUtcNow();
         }
-        catch (OperationCanceledException) when (stoppingToken.IsCancellationRequested)
-        {
-            // hard stop
-        }
 
-        Volatile.Write(ref _uncheckpointedCount, _uncheckpointed.Count);
+        CountUncheckpointed();
+    }
+
+    private void CountUncheckpointed() =>
+        Volatile.Write(ref _uncheckpointedCount, _uncheckpointed.Count + (_pending?.Tickets.Count ?? 0));
+
+    private static void CancelQuietly(CancellationTokenSource source)
+    {
+        try
+        {
+            source.Cancel();
+        }
+        catch (ObjectDisposedException)
+        {
+            // the wait ended before the checkpoint did
+        }
     }
 
     private void SaveSnapshots()

@@ -185,6 +185,9 @@ public sealed class SiloPipeline : ITelemetryReceiver
     /// <summary>True when a message was processed since the last checkpoint.</summary>
     public bool NeedsCheckpoint { get; private set; }
 
+    /// <summary>A captured checkpoint could not be saved: the next one must capture this silo again.</summary>
+    internal void CheckpointNotSaved() => NeedsCheckpoint = true;
+
     /// <summary>
     /// Everything needed to resume exactly after the last processed message: the monitor's snapshot,
     /// each publisher's sequence position (so a redelivery is a duplicate) and the open downsampling
