@@ -71,6 +71,12 @@ public sealed partial class WallAlarmsThroughMosquittoTests(ITestOutputHelper ou
         var raised = Transitions(observer).First(t => IsAsymmetry(t, "S1") && t.To == "unacknowledged");
         output.WriteLine(raised.Message);
 
+        // S2 (partly weighed, scaled by its supports) discharges centrally: its figures on the events topic are known and are those of an outflow.
+        var s2 = Events(observer).First(e => e.GetProperty("type").GetString() == "discharge" && e.GetProperty("silo").GetString() == "S2");
+        Assert.True(s2.GetProperty("figuresKnown").GetBoolean(), s2.ToString());
+        Assert.True(s2.GetProperty("massOutKg").GetDouble() > 0, s2.ToString());
+        Assert.True(s2.GetProperty("peakRateKgPerS").GetDouble() >= s2.GetProperty("meanRateKgPerS").GetDouble(), s2.ToString());
+
         // Inside the channel the wall load falls and beside it it rises (DOMAIN.md §2 and §4, p_hae = 2·p_hf − p_hce [M]):
         // the first harmonic of the load rise points away from the channel. Tolerance 30°: half the 60° gauge spacing
         // of S1's rings, far above the few degrees the detection benchmark measures.

@@ -126,8 +126,12 @@ public static class AlarmPayloads
         w.WriteString("instance", instanceId);
     });
 
-    /// <summary>A finished discharge with its peak indices per ring, on the events topic.</summary>
-    public static byte[] Discharge(DischargeSummary d, long eventId, string instanceId) => Write(w =>
+    /// <summary>
+    /// A finished discharge with its peak indices per ring, on the events topic. Mass out and rates are
+    /// the checked <paramref name="figures"/> (the journal's record holds the same): null when the
+    /// inventory did not follow the flow, with the reason in "figureNotes".
+    /// </summary>
+    public static byte[] Discharge(DischargeSummary d, DischargeFigures figures, long eventId, string instanceId) => Write(w =>
     {
         w.WriteString("type", "discharge");
         w.WriteNumber("eventId", eventId);
@@ -137,7 +141,17 @@ public static class AlarmPayloads
         w.WriteString("end", DateTimeOffset.FromUnixTimeMilliseconds(d.EndMs));
         Number(w, "massAtStartKg", d.MassAtStartKg);
         Number(w, "massAtEndKg", d.MassAtEndKg);
-        Number(w, "meanRateKgPerS", d.MeanRateKgPerS);
+        w.WriteBoolean("figuresKnown", figures.Known);
+        Number(w, "massOutKg", figures.Known ? figures.MassOutKg : null);
+        Number(w, "meanRateKgPerS", figures.Known ? figures.MeanRateKgPerS : null);
+        Number(w, "peakRateKgPerS", figures.Known ? figures.PeakRateKgPerS : null);
+        w.WriteStartArray("figureNotes");
+        foreach (var note in figures.Notes)
+        {
+            w.WriteStringValue(note);
+        }
+
+        w.WriteEndArray();
         WriteRings(w, d.Rings);
         w.WriteString("instance", instanceId);
     });

@@ -363,7 +363,7 @@ public sealed class DischargeEventRecorder
             _context.Logger.LogError(ex, "Journaling the discharge event of {Silo} failed", _silo.Key);
         }
 
-        _context.Outbound.Enqueue(new OutboundMessage(_context.EventsTopic, AlarmPayloads.Discharge(d, _openEventId ?? 0, _context.InstanceId),
+        _context.Outbound.Enqueue(new OutboundMessage(_context.EventsTopic, AlarmPayloads.Discharge(d, figures, _openEventId ?? 0, _context.InstanceId),
             Retain: false, MqttQualityOfServiceLevel.AtLeastOnce));
         if (figures.Known)
         {
