@@ -14,8 +14,10 @@ namespace SiloWatch.Benchmarks;
 /// <summary>
 /// Load driver: telemetry through a real Mosquitto, consumed once by a bare MQTTnet subscriber and
 /// once by the SiloWatch service, in the same run; prints both rates and their ratio.
-/// Usage: dotnet run -c Release --project tests/SiloWatch.Benchmarks -- ingest-load [messages] [samplesPerMessage] [rounds]
-/// On a shared machine the two take turns going first, and each phase records how busy other
+/// Usage: dotnet run -c Release --project tests/SiloWatch.Benchmarks -- ingest-load [messages] [samplesPerMessage] [rounds] [warmupRounds]
+/// The first rounds of a process run on code the JIT has not optimised yet (tiered compilation
+/// promotes hot methods after a few seconds): they are run and printed as warm-up (3 by default) and
+/// left out of the summary, which is about the service in steady state. On a shared machine the two take turns going first, and each phase records how busy other
 /// processes kept the cores, so that the rounds nobody disturbed can be told apart.
 /// </summary>
 public static class IngestLoadDriver
@@ -27,6 +29,7 @@ public static class IngestLoadDriver
         var messages = args.Length > 0 ? int.Parse(args[0], CultureInfo.InvariantCulture) : 50_000;
         var perMessage = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 50;
         var rounds = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 3;
+        var warmups = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 3;
         var mosquitto = new[] { "/usr/sbin/mosquitto", "/usr/bin/mosquitto" }.FirstOrDefault(File.Exists)
             ?? throw new InvalidOperationException("mosquitto is not installed (apt-get install mosquitto)");
         var folder = Directory.CreateTempSubdirectory("silowatch-load-").FullName;
@@ -43,15 +46,16 @@ public static class IngestLoadDriver
         {
             var payloads = BuildPayloads(messages, perMessage);
             Console.WriteLine($"{messages} messages of {perMessage} samples (~{payloads[0].Length} bytes) through mosquitto on 127.0.0.1:{port}, QoS 1, " +
-                $"{rounds} round(s), bare subscriber and service in turn (the first of each round alternates); {Environment.ProcessorCount} cores, load average {LoadAverage()}");
+                $"{warmups} warm-up round(s) then {rounds} measured round(s), bare subscriber and service in turn (the first of each round alternates); {Environment.ProcessorCount} cores, load average {LoadAverage()}");
             Console.WriteLine("cpu: microseconds of CPU per message while streaming, in this process (publisher + consumer) and in mosquitto; " +
                 "others: cores busy with other processes during the phase (from /proc/stat)");
             var bares = new List<Phase>();
             var services = new List<Phase>();
-            for (var round = 1; round <= rounds; round++)
+            for (var round = 1 - warmups; round <= rounds; round++)
             {
+                var warmup = round <= 0;
                 Phase bare, service;
-                if (round % 2 == 1)
+                if ((round & 1) == 1)
                 {
                     Settle();
                     bare = await MeasureBareAsync(port, payloads, round, new Meter(broker));
@@ -66,9 +70,13 @@ public static class IngestLoadDriver
                     bare = await MeasureBareAsync(port, payloads, round, new Meter(broker));
                 }
 
-                bares.Add(bare);
-                services.Add(service);
-                Console.WriteLine($"round {round}: bare {bare.Rate,8:N0} msg/s (cpu {bare.OwnCpuUs(messages),5:F1} us, mosquitto {bare.BrokerCpuUs(messages),5:F1} us, others {bare.OtherCores,4:F2}) | " +
+                if (!warmup)
+                {
+                    bares.Add(bare);
+                    services.Add(service);
+                }
+
+                Console.WriteLine($"{(warmup ? $"warm-up {round + warmups}" : $"round {round}")}: bare {bare.Rate,8:N0} msg/s (cpu {bare.OwnCpuUs(messages),5:F1} us, mosquitto {bare.BrokerCpuUs(messages),5:F1} us, others {bare.OtherCores,4:F2}) | " +
                     $"service {service.Rate,8:N0} msg/s = {service.Rate * perMessage,9:N0} samples/s (cpu {service.OwnCpuUs(messages),5:F1} us, mosquitto {service.BrokerCpuUs(messages),5:F1} us, others {service.OtherCores,4:F2}) | " +
                     $"ratio {service.Rate / bare.Rate:P1}");
                 Console.WriteLine($"         bare {bare.Gc(messages)} | service {service.Gc(messages)}");

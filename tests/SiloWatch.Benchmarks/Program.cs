@@ -2,7 +2,7 @@ using BenchmarkDotNet.Running;
 using SiloWatch.Benchmarks;
 
 // Load drivers and accuracy reports print figures of their own:
-//   ingest-load [messages] [samplesPerMessage] [rounds]   telemetry through Mosquitto: service vs bare subscriber
+//   ingest-load [messages] [samplesPerMessage] [rounds] [warmupRounds]   telemetry through Mosquitto: service vs bare subscriber
 //   ingest-path [messages] [samplesPerMessage] [repeats]  the consumer's own cost per message, no network
 //   inventory-accuracy [runs]                    mass error and interval coverage against simulated truth
 //   scenario-accuracy [scenario.json ...]        estimates against the simulator's ground truth per scenario
