@@ -72,6 +72,8 @@ public sealed class SiloMonitor
     private long _rejectedSamples;
     private bool _gammaTiedToKMu;
     private bool _asymmetric;
+    private long _arrivedMs = long.MinValue;
+    private Func<bool>? _hasUnprocessed;
 
     public SiloMonitor(SiloRef silo, SiloModel model, MonitoringOptions options, TimeProvider time)
     {
@@ -205,6 +207,40 @@ public sealed class SiloMonitor
     /// <summary>Samples ignored because they named a sensor this silo does not have.</summary>
     public long RejectedSamples => _rejectedSamples;
 
+    /// <summary>
+    /// Tells the monitor whether messages of its silo have been received and not yet passed to it
+    /// (<paramref name="hasUnprocessed"/> is read whenever staleness is judged, from any thread that judges it).
+    /// With it, and <see cref="OnArrival"/> before each message's samples, staleness is judged against
+    /// arrival (<see cref="ArrivalsSeenUntil"/>) rather than against how far behind the caller is.
+    /// </summary>
+    public void TrackArrivals(Func<bool> hasUnprocessed) => _hasUnprocessed = hasUnprocessed ?? throw new ArgumentNullException(nameof(hasUnprocessed));
+
+    /// <summary>
+    /// A message received at <paramref name="receivedUnixMs"/> (the evaluation's clock) is being passed
+    /// on: its samples follow through <see cref="OnSample"/>. No allocation.
+    /// </summary>
+    public void OnArrival(long receivedUnixMs) => Volatile.Write(ref _arrivedMs, receivedUnixMs);
+
+    /// <summary>
+    /// The time up to which the silo's arrivals have been seen, for a judgement at <paramref name="nowUnixMs"/>:
+    /// every staleness judgement of the monitor (sensor flags, the estimate's held and stale, what the alarms
+    /// read) is made at this time. It is <paramref name="nowUnixMs"/> when nothing of the silo waits to be
+    /// processed (or arrivals are not tracked); while messages of it wait, newer data exists but has not been
+    /// seen, so it is the receive time of the last message passed on (no later than <paramref name="nowUnixMs"/>):
+    /// a sample is then stale only if it was already too old when it arrived, or if its sensor stopped
+    /// while later messages of the silo arrived. A backlog in the caller is not a sensor fault.
+    /// </summary>
+    public long ArrivalsSeenUntil(long nowUnixMs)
+    {
+        var arrived = Volatile.Read(ref _arrivedMs);
+        if (arrived == long.MinValue || nowUnixMs <= arrived || _hasUnprocessed is not { } waiting || !waiting())
+        {
+            return nowUnixMs;
+        }
+
+        return arrived;
+    }
+
     /// <summary>Converts one sample, judges it and, when a scan of the weighing cells is complete, updates the estimate. No allocation.</summary>
     public void OnSample(in TelemetrySample sample)
     {
@@ -305,15 +341,16 @@ public sealed class SiloMonitor
     public InventoryEstimate Evaluate(long nowUnixMs)
     {
         var flags = _lastFlags;
+        var seenMs = ArrivalsSeenUntil(nowUnixMs);
         if (!_filter.Initialised)
         {
             flags |= _cells.Length == 0 ? QualityFlags.InsufficientSensors : QualityFlags.NoData;
             return new InventoryEstimate(SiteId, SiloId, nowUnixMs, double.NaN, double.NaN, double.NaN, double.NaN, double.NaN, double.NaN,
-                double.NaN, double.NaN, double.NaN, double.NaN, double.NaN, null, null, flags.Severity(), Reason(flags, nowUnixMs), _method);
+                double.NaN, double.NaN, double.NaN, double.NaN, double.NaN, null, null, flags.Severity(), Reason(flags, seenMs), _method);
         }
 
         double massKg, rateKgPerS, p00, p11;
-        if (nowUnixMs - _lastFusionMs > _cellStaleAfterMs)
+        if (seenMs - _lastFusionMs > _cellStaleAfterMs)
         {
             // No weighing data: hold the last estimate rather than extrapolate a rate into the unknown.
             flags |= QualityFlags.Stale | QualityFlags.Held;
@@ -381,16 +418,16 @@ public sealed class SiloMonitor
             timeToEmpty,
             timeToFull,
             flags.Severity(),
-            Reason(flags, nowUnixMs),
+            Reason(flags, seenMs),
             _method);
     }
 
-    /// <summary>Last converted value, raw value and quality of every sensor, judged against the clock now.</summary>
+    /// <summary>Last converted value, raw value and quality of every sensor, judged now (staleness at <see cref="ArrivalsSeenUntil"/>).</summary>
     public IReadOnlyList<SensorReading> Readings
     {
         get
         {
-            var now = _time.GetUtcNow().ToUnixTimeMilliseconds();
+            var now = ArrivalsSeenUntil(_time.GetUtcNow().ToUnixTimeMilliseconds());
             var list = new SensorReading[_channels.Length];
             for (var i = 0; i < _channels.Length; i++)
             {
@@ -410,8 +447,8 @@ public sealed class SiloMonitor
     /// <summary>Robust z-score of the last sample of a sensor (diagnostics).</summary>
     public double LastSpikeZ(int sensorIndex) => _channels[sensorIndex].Spike.LastZ;
 
-    /// <summary>Quality flags of one sensor at a time (tests and diagnostics).</summary>
-    public QualityFlags SensorFlags(int sensorIndex, long nowUnixMs) => _channels[sensorIndex].FlagsAt(nowUnixMs);
+    /// <summary>Quality flags of one sensor judged at a time, its staleness at <see cref="ArrivalsSeenUntil"/> of that time. No allocation.</summary>
+    public QualityFlags SensorFlags(int sensorIndex, long nowUnixMs) => _channels[sensorIndex].FlagsAt(ArrivalsSeenUntil(nowUnixMs));
 
     /// <summary>
     /// Commanded tare with the silo known empty: the present value of every weighing cell (and of
@@ -421,12 +458,13 @@ public sealed class SiloMonitor
     public TareRecord Tare(string by, long nowUnixMs)
     {
         ArgumentException.ThrowIfNullOrWhiteSpace(by);
+        var seenMs = ArrivalsSeenUntil(nowUnixMs);
         foreach (var c in _cells)
         {
             var ch = _channels[c];
-            if (!ch.UsableAt(nowUnixMs))
+            if (!ch.UsableAt(seenMs))
             {
-                var why = ch.FlagsAt(nowUnixMs).Describe();
+                var why = ch.FlagsAt(seenMs).Describe();
                 throw new InvalidOperationException($"cannot tare {_silo.Key}: load cell {ch.Options.Id} is {(why.Length == 0 ? "without a value" : why)}");
             }
         }
@@ -437,7 +475,7 @@ public sealed class SiloMonitor
         {
             var isWeighing = ch.CellIndex >= 0;
             var isGauge = ch.Kind is SensorKind.AxialStrain or SensorKind.HoopStrain;
-            if ((isWeighing || isGauge) && ch.UsableAt(nowUnixMs))
+            if ((isWeighing || isGauge) && ch.UsableAt(seenMs))
             {
                 ch.TareValue = ch.Value;
                 ch.TareTemperatureC = ch.LastTemperatureC;

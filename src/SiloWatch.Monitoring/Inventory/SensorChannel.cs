@@ -105,7 +105,7 @@ internal sealed class SensorChannel
     /// <summary>Last accepted engineering value (a rejected sample keeps the previous one).</summary>
     public double Value { get; set; } = double.NaN;
 
-    /// <summary>Flags of the last sample (stale is added when read, against the clock).</summary>
+    /// <summary>Flags of the last sample (stale is added when read, against the time it is judged at: SiloMonitor.ArrivalsSeenUntil).</summary>
     public QualityFlags SampleFlags { get; set; } = QualityFlags.NoData;
 
     /// <summary>Drift flag set by the share detector (kept apart from the per-sample flags).</summary>

@@ -72,18 +72,25 @@ public sealed class DischargeStateMachine(WallWatchOptions options)
     }
 
     /// <summary>Advances the state with the inventory at <paramref name="nowMs"/>; returns the change, or null.</summary>
-    public DischargeStateChange? Update(long nowMs, InventoryEstimate? inventory)
+    public DischargeStateChange? Update(long nowMs, InventoryEstimate? inventory) => Update(nowMs, inventory, nowMs);
+
+    /// <summary>
+    /// Advances the state with the inventory at <paramref name="nowMs"/>, judging whether the outlet signal is
+    /// recent at <paramref name="seenUntilMs"/> (the time up to which the silo's arrivals have been seen); returns the change, or null.
+    /// </summary>
+    public DischargeStateChange? Update(long nowMs, InventoryEstimate? inventory, long seenUntilMs)
     {
         if (SinceMs == long.MinValue)
         {
             SinceMs = nowMs;
         }
 
-        var evidence = UsesOutletSignal(nowMs) ? OutletEvidence(inventory) : RateEvidence(inventory);
+        var outlet = UsesOutletSignal(Math.Min(nowMs, seenUntilMs));
+        var evidence = outlet ? OutletEvidence(inventory) : RateEvidence(inventory);
         if (evidence != _evidence)
         {
             _evidence = evidence;
-            _evidenceSinceMs = UsesOutletSignal(nowMs) && _outletChangedMs != long.MinValue ? _outletChangedMs : nowMs;
+            _evidenceSinceMs = outlet && _outletChangedMs != long.MinValue ? _outletChangedMs : nowMs;
         }
 
         if (evidence == Evidence.Unknown)
@@ -98,7 +105,6 @@ public sealed class DischargeStateMachine(WallWatchOptions options)
             return null;
         }
 
-        var outlet = UsesOutletSignal(nowMs);
         var onsetDelay = outlet ? 0 : _onsetDelayMs;
         switch (State)
         {

@@ -277,11 +277,20 @@ public sealed class WallWatch
         }
     }
 
-    /// <summary>Evaluates the silo at <paramref name="nowMs"/> with the inventory estimate of the same moment.</summary>
-    public WallAssessment Evaluate(long nowMs, InventoryEstimate? inventory)
+    /// <summary>Evaluates the silo at <paramref name="nowMs"/> with the inventory estimate of the same moment; values older than their limit at that moment are not used.</summary>
+    public WallAssessment Evaluate(long nowMs, InventoryEstimate? inventory) => Evaluate(nowMs, inventory, nowMs);
+
+    /// <summary>
+    /// Evaluates the silo at <paramref name="nowMs"/> with the inventory estimate of the same moment, judging
+    /// how old a value is at <paramref name="seenUntilMs"/>, the time up to which the silo's arrivals have been
+    /// seen (<see cref="SiloMonitor.ArrivalsSeenUntil"/>): a backlog of its messages does not make its gauges,
+    /// cells and outlet signal too old to use.
+    /// </summary>
+    public WallAssessment Evaluate(long nowMs, InventoryEstimate? inventory, long seenUntilMs)
     {
+        var seenMs = Math.Min(nowMs, seenUntilMs);
         var before = _state.State;
-        var change = _state.Update(nowMs, inventory);
+        var change = _state.Update(nowMs, inventory, seenMs);
         var massKg = inventory is { Quality: not Quality.Bad } && double.IsFinite(inventory.MassKg) ? inventory.MassKg : double.NaN;
         DischargeSummary? finished = null;
 
@@ -319,10 +328,10 @@ public sealed class WallWatch
             }
         }
 
-        RecordHistory(nowMs, massKg);
+        RecordHistory(nowMs, seenMs, massKg);
         if (_state.State == DischargeState.Idle)
         {
-            LearnThermal(nowMs);
+            LearnThermal(nowMs, seenMs);
         }
 
         var state = _state.State;
@@ -343,7 +352,7 @@ public sealed class WallWatch
         for (var r = 0; r < _rings.Length; r++)
         {
             var ring = _rings[r];
-            rings[r] = AssessRing(ring, nowMs, discharging, double.IsFinite(massKg) ? fill : null, double.IsFinite(massKg) ? disch : null);
+            rings[r] = AssessRing(ring, seenMs, discharging, double.IsFinite(massKg) ? fill : null, double.IsFinite(massKg) ? disch : null);
             var detail = double.IsFinite(rings[r].AsymmetryDirectionDeg) ? $"ring {ring.Id}, highest load rise toward {rings[r].AsymmetryDirectionDeg:0}°" : ring.Detail;
             conditions.Add(new ConditionValue(ring.A1Key, rings[r].A1Ratio, state, detail));
             conditions.Add(new ConditionValue(ring.A2Key, rings[r].A2Ratio, state, ring.Detail));
@@ -355,7 +364,7 @@ public sealed class WallWatch
         }
 
         conditions.Add(new ConditionValue(_overfillKey, inventory is { Quality: not Quality.Bad } ? inventory.PercentFull : double.NaN, state));
-        conditions.Add(new ConditionValue(_supportKey, SupportLoadPercent(nowMs, massKg), state));
+        conditions.Add(new ConditionValue(_supportKey, SupportLoadPercent(seenMs, massKg), state));
         conditions.Add(new ConditionValue(_idleKey, IdleMassChangeKgPerMin(nowMs, massKg), state));
         for (var i = 0; i < _slots.Length; i++)
         {
@@ -445,7 +454,7 @@ public sealed class WallWatch
         return problems;
     }
 
-    private RingAssessment AssessRing(Ring ring, long nowMs, bool discharging, FillState? fill, FillState? disch)
+    private RingAssessment AssessRing(Ring ring, long seenMs, bool discharging, FillState? fill, FillState? disch)
     {
         var n = ring.Sensors.Length;
         var present = _scratch.AsSpan(0, n);
@@ -454,7 +463,7 @@ public sealed class WallWatch
         for (var k = 0; k < n; k++)
         {
             var slot = _slots[ring.Sensors[k]];
-            var usable = Usable(slot, nowMs);
+            var usable = Usable(slot, seenMs);
             tared &= double.IsFinite(slot.ZeroMicro);
             present[k] = usable ? slot.Value - (double.IsFinite(slot.ZeroMicro) ? slot.ZeroMicro : 0) : double.NaN;
             if (usable)
@@ -624,13 +633,14 @@ public sealed class WallWatch
     private static Harmonic ScaleHarmonic(Harmonic h, double factor) =>
         new(h.Order, h.Cos * factor, h.Sin * factor, h.Amplitude * factor, h.DirectionDeg);
 
-    private bool Usable(SensorSlot slot, long nowMs) =>
+    // How old a value is, is judged at seenMs: the time up to which the silo's arrivals have been seen.
+    private bool Usable(SensorSlot slot, long seenMs) =>
         slot.Quality is { } q
         && (q == Quality.Good || (q == Quality.Uncertain && _options.UseUncertainGauges))
         && double.IsFinite(slot.Value)
-        && nowMs - slot.LastMs <= (long)_options.GaugeStaleAfter.TotalMilliseconds;
+        && seenMs - slot.LastMs <= (long)_options.GaugeStaleAfter.TotalMilliseconds;
 
-    private void RecordHistory(long nowMs, double massKg)
+    private void RecordHistory(long nowMs, long seenMs, double massKg)
     {
         if (_lastHistoryMs != long.MinValue && nowMs - _lastHistoryMs < 900)
         {
@@ -646,7 +656,7 @@ public sealed class WallWatch
             // A gauge briefly not good (a held spike at the step a discharge starts with) keeps its last good value
             // for the baseline, for up to the baseline lead.
             var slot = _slots[i];
-            if (Usable(slot, nowMs))
+            if (Usable(slot, seenMs))
             {
                 slot.LastGoodValue = slot.Value;
                 slot.LastGoodMs = nowMs;
@@ -736,7 +746,7 @@ public sealed class WallWatch
             [.. _rings.Select(r => new RingPeak(r.Id, r.MaxA1, r.DirectionAtMaxA1, r.MaxA2, r.MaxOverExpected, r.MaxPeakOverMean))]);
     }
 
-    private void LearnThermal(long nowMs)
+    private void LearnThermal(long nowMs, long seenMs)
     {
         if (!_options.LearnThermalSensitivity)
         {
@@ -748,7 +758,7 @@ public sealed class WallWatch
             for (var k = 0; k < ring.Sensors.Length; k++)
             {
                 var slot = _slots[ring.Sensors[k]];
-                if (Usable(slot, nowMs) && slot.Quality == Quality.Good && double.IsFinite(slot.TemperatureC))
+                if (Usable(slot, seenMs) && slot.Quality == Quality.Good && double.IsFinite(slot.TemperatureC))
                 {
                     ring.Thermal[k].Observe(nowMs, slot.Value, slot.TemperatureC);
                 }
@@ -756,7 +766,7 @@ public sealed class WallWatch
         }
     }
 
-    private double SupportLoadPercent(long nowMs, double massKg)
+    private double SupportLoadPercent(long seenMs, double massKg)
     {
         if (!(_supportCapacityKn > 0))
         {
@@ -782,7 +792,7 @@ public sealed class WallWatch
             }
 
             var slot = _slots[i];
-            if (slot.Quality is Quality.Good or Quality.Uncertain && double.IsFinite(slot.Value) && nowMs - slot.LastMs <= (long)_options.GaugeStaleAfter.TotalMilliseconds)
+            if (slot.Quality is Quality.Good or Quality.Uncertain && double.IsFinite(slot.Value) && seenMs - slot.LastMs <= (long)_options.GaugeStaleAfter.TotalMilliseconds)
             {
                 measured[support - 1] += slot.Value;
                 known[support - 1] = true;

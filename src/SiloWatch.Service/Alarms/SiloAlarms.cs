@@ -143,24 +143,30 @@ public sealed class SiloAlarms
         Feed(monitor, sensorIndex, tsMs, tsMs);
     }
 
-    /// <summary>Evaluates the wall and the alarms at <paramref name="nowMs"/> with the estimate of the same moment. Worker only.</summary>
+    /// <summary>
+    /// Evaluates the wall and the alarms at <paramref name="nowMs"/> with the estimate of the same moment. Worker only.
+    /// Staleness (a sensor's quality, a gauge or cell too old to use) is judged at the time up to which the
+    /// silo's arrivals have been seen (<see cref="SiloMonitor.ArrivalsSeenUntil"/>): a backlog of the silo's
+    /// messages in the service raises no sensor-bad alarm, a sensor or gateway that stopped still does.
+    /// </summary>
     public void Evaluate(SiloMonitor monitor, long nowMs, InventoryEstimate estimate)
     {
         // A sensor that has fallen silent sends nothing: judge every sensor again at this moment.
+        var seenMs = monitor.ArrivalsSeenUntil(nowMs);
         for (var i = 0; i < _lastMs.Length; i++)
         {
             if (_lastMs[i] == long.MinValue)
             {
-                _wall.OnValue(i, 0, double.NaN, monitor.SensorFlags(i, nowMs).Severity());
+                _wall.OnValue(i, 0, double.NaN, monitor.SensorFlags(i, seenMs).Severity());
             }
             else
             {
-                Feed(monitor, i, _lastMs[i], nowMs);
+                Feed(monitor, i, _lastMs[i], seenMs);
             }
         }
 
         RunWorkerCommands(monitor, nowMs);
-        var assessment = _wall.Evaluate(nowMs, estimate);
+        var assessment = _wall.Evaluate(nowMs, estimate, seenMs);
         IReadOnlyList<RingStatus> rings = [.. assessment.Rings.Select(r => new RingStatus(r.Ring, r.GoodGauges, r.Gauges, r.A1Ratio, r.AsymmetryDirectionDeg, r.MeasuredOverExpected, r.Note))];
         IReadOnlyList<AlarmState> active;
         lock (_gate)

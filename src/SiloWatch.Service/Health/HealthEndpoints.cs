@@ -5,7 +5,7 @@ using SiloWatch.Storage;
 namespace SiloWatch.Service.Health;
 
 /// <summary>
-/// GET /health: broker connection, queue depths, counters and messages the broker refused (200 when
+/// GET /health: broker connection, queue depths and ingest lag per partition, counters and messages the broker refused (200 when
 /// connected, the store reachable and no refusal in the last <see cref="PublishRefusals.HealthWindow"/>; 503 otherwise).
 /// GET /api/silos: the last estimate of every silo this instance owns.
 /// </summary>
@@ -14,7 +14,7 @@ public static class HealthEndpoints
     public static WebApplication MapSiloWatchHealth(this WebApplication app)
     {
         app.MapGet("/health", (TelemetryBridgeService bridge, TelemetryIngest ingest, OutboundQueue outbound,
-            IngestCounters counters, PublishRefusals refusals, BrokerEndpoint endpoint, ITimeSeriesSink sink) =>
+            IngestCounters counters, PublishRefusals refusals, BrokerEndpoint endpoint, ITimeSeriesSink sink, TimeProvider time) =>
         {
             var connected = bridge.Client?.IsConnected ?? false;
             var store = sink.Health;
@@ -24,7 +24,7 @@ public static class HealthEndpoints
             var report = new HealthReport(
                 healthy ? "healthy" : "degraded",
                 new BrokerHealth(connected, broker?.Host ?? "", broker?.Port ?? 0, endpoint.Embedded, bridge.Client?.Reconnects ?? 0),
-                [.. ingest.Workers.Select(w => new QueueHealth(w.Index, w.Depth, w.Pipelines.Count))],
+                [.. ingest.Workers.Select(w => QueueHealth.Of(w, time.GetUtcNow().ToUnixTimeMilliseconds()))],
                 outbound.Count,
                 counters.Snapshot(),
                 new AckHealth(ingest.Acks.Pending, ingest.Workers.Sum(w => w.Uncheckpointed), ingest.Acks.Acknowledged, ingest.Acks.LeftForRedelivery, ingest.CheckpointsSaved),
@@ -63,4 +63,16 @@ public sealed record AckHealth(int Pending, int AwaitingCheckpoint, long Acknowl
 
 public sealed record BrokerHealth(bool Connected, string Host, int Port, bool Embedded, long Reconnects);
 
-public sealed record QueueHealth(int Partition, int Depth, int Silos);
+/// <summary>
+/// One partition: messages queued, silos, and how far behind its worker is (<see cref="PartitionLag"/>): the last
+/// message taken waited <paramref name="LastDelayMs"/> from its receipt, and the oldest still waiting has waited at most
+/// <paramref name="WaitingAtMostMs"/> (0 when none waits).
+/// </summary>
+public sealed record QueueHealth(int Partition, int Depth, int Silos, long LastDelayMs, long WaitingAtMostMs)
+{
+    public static QueueHealth Of(PartitionWorker worker, long nowMs)
+    {
+        var lag = PartitionLag.Of(worker, nowMs);
+        return new QueueHealth(worker.Index, lag.Depth, worker.Pipelines.Count, lag.LastDelayMs, lag.WaitingAtMostMs);
+    }
+}

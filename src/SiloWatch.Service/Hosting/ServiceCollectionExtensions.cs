@@ -108,6 +108,7 @@ public static class ServiceCollectionExtensions
         services.AddSingleton<TelemetryBridgeService>();
         services.AddHostedService(sp => sp.GetRequiredService<TelemetryBridgeService>());
         services.AddHostedService<SiloSummaryLogService>();
+        services.AddHostedService<SiloWatch.Service.Health.IngestLagWatch>();
         return builder;
     }
 

@@ -40,6 +40,7 @@ public sealed class SiloPipeline : ITelemetryReceiver
         _rejectLog = rejectLog;
         _deadLetterTopic = topics.DeadLetter(silo.SiteId, silo.SiloId);
         _stateTopic = topics.State(silo.SiteId, silo.SiloId);
+        monitor.TrackArrivals(() => Queued > 0); // staleness judged against arrival, not against this silo's backlog
         if (sink is IIdleIntervalClose idle)
         {
             // This silo's worker knows when its feed is idle (nothing queued, nothing processed for a while);
@@ -65,6 +66,9 @@ public sealed class SiloPipeline : ITelemetryReceiver
 
     /// <summary>A message counted by <see cref="Enqueuing"/> was processed, dropped or not taken.</summary>
     public void Dequeued() => Interlocked.Decrement(ref _queued);
+
+    /// <summary>When the message processed last (or being processed) was received, service clock; 0 before the first (any thread).</summary>
+    public long LastReceivedMs => Volatile.Read(ref _receivedMs);
 
     /// <summary>The worker's clock when it last processed a message of this silo (worker only).</summary>
     internal long LastProcessedMs { get; set; } = long.MinValue;
@@ -118,7 +122,12 @@ public sealed class SiloPipeline : ITelemetryReceiver
     /// <summary>Decodes one telemetry message of this silo and feeds every good sample to the monitor.</summary>
     public void Process(ReadOnlySpan<byte> payload, long receivedMs)
     {
-        _receivedMs = receivedMs;
+        Volatile.Write(ref _receivedMs, receivedMs);
+        if (!FollowsSampleTime)
+        {
+            Monitor.OnArrival(receivedMs);
+        }
+
         NeedsCheckpoint = true;
         var outcome = _decoder.Decode(payload, receivedMs, this);
         _counters.Sequence(outcome);
