@@ -1,8 +1,7 @@
 using System.Text;
 using System.Text.Json;
-using Microsoft.AspNetCore.Builder;
 using Microsoft.Extensions.DependencyInjection;
-using Microsoft.Extensions.Time.Testing;
+using SiloWatch.Integration.Tests.Support;
 using SiloWatch.Monitoring;
 using SiloWatch.Monitoring.Tests.Support;
 using SiloWatch.Service.Hosting;
@@ -22,11 +21,8 @@ public sealed class ArrivalStalenessThroughThePipelineTests : IAsyncDisposable
 {
     private const long BacklogMs = 10_000;
     private const long TransitMs = 40;
-    private static readonly DateTimeOffset Start = new(2026, 12, 1, 10, 0, 0, TimeSpan.Zero);
 
-    private readonly FakeTimeProvider _time = new(Start);
-    private readonly string _folder = Directory.CreateTempSubdirectory("silowatch-arrival-").FullName;
-    private readonly WebApplication _app;
+    private readonly FakeClockHost _host = new("arrival-0");
     private readonly SiloPipeline _pipeline;
     private readonly SignalSource _source;
     private readonly double _massKg;
@@ -35,18 +31,8 @@ public sealed class ArrivalStalenessThroughThePipelineTests : IAsyncDisposable
 
     public ArrivalStalenessThroughThePipelineTests()
     {
-        _app = SiloWatchApp.Build([
-            $"--Storage:EmbeddedPath={Path.Combine(_folder, "series.db")}",
-            $"--Storage:JournalPath={Path.Combine(_folder, "journal.db")}",
-            "--Mqtt:Host=127.0.0.1", "--Mqtt:Port=1", "--Instance:Id=arrival-0",
-            "--Instance:Partitions=1", "--Instance:LogInterval=00:00:00",
-            $"--Instance:PlantFile={Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json")}",
-            $"--Instance:MaterialsFile={Path.Combine(AppContext.BaseDirectory, "config", "materials.json")}",
-            "--Demo:RunSimulator=false", "--Health:Urls=http://127.0.0.1:0", "--Serilog:MinimumLevel:Default=Warning"],
-            b => b.Services.AddSingleton<TimeProvider>(_time));
-        var ingest = _app.Services.GetRequiredService<TelemetryIngest>();
-        _pipeline = ingest.Pipelines.Single(p => p.Silo.Key == "brackenford/S1");
-        var model = _app.Services.GetRequiredService<SiloModels>().For(_pipeline.Silo);
+        _pipeline = _host.Pipeline("brackenford/S1");
+        var model = _host.App.Services.GetRequiredService<SiloModels>().For(_pipeline.Silo);
         _source = new SignalSource(_pipeline.Silo, model);
         _massKg = 0.6 * model.CapacityKg;
     }
@@ -134,8 +120,8 @@ public sealed class ArrivalStalenessThroughThePipelineTests : IAsyncDisposable
     /// </summary>
     private void Second(int s, bool gatewaySends)
     {
-        var nowMs = Start.ToUnixTimeMilliseconds() + (s * 1000L) + TransitMs;
-        _time.SetUtcNow(DateTimeOffset.FromUnixTimeMilliseconds(nowMs));
+        var nowMs = FakeClockHost.Start.ToUnixTimeMilliseconds() + (s * 1000L) + TransitMs;
+        _host.Time.SetUtcNow(DateTimeOffset.FromUnixTimeMilliseconds(nowMs));
         if (gatewaySends)
         {
             _pipeline.Enqueuing();
@@ -164,17 +150,12 @@ public sealed class ArrivalStalenessThroughThePipelineTests : IAsyncDisposable
         return Encoding.UTF8.GetBytes(JsonSerializer.Serialize(new { pub = "arrival-gw", seq = ++_seq, ts = tsMs, samples }));
     }
 
-    private long Now() => _time.GetUtcNow().ToUnixTimeMilliseconds();
+    private long Now() => _host.Time.GetUtcNow().ToUnixTimeMilliseconds();
 
     private int Sensor(string id) => _pipeline.Silo.Sensors.Single(x => x.Id == id).Index;
 
     private List<string> SensorBadAlarms() =>
         [.. _pipeline.Alarms!.Active.Where(a => a.InAlarm && a.AlarmId.Contains("/sensor-bad-", StringComparison.Ordinal)).Select(a => a.AlarmId).Order(StringComparer.Ordinal)];
 
-    public async ValueTask DisposeAsync()
-    {
-        await _app.Services.GetRequiredService<TelemetryIngest>().Acks.DisposeAsync();
-        await _app.DisposeAsync();
-        Directory.Delete(_folder, recursive: true);
-    }
+    public ValueTask DisposeAsync() => _host.DisposeAsync();
 }

@@ -1,14 +1,11 @@
 using System.Buffers;
 using System.Text;
 using System.Text.Json;
-using Microsoft.AspNetCore.Builder;
-using Microsoft.Extensions.DependencyInjection;
 using Microsoft.Extensions.Logging;
 using Microsoft.Extensions.Logging.Abstractions;
 using Microsoft.Extensions.Time.Testing;
 using SiloWatch.Integration.Tests.Support;
 using SiloWatch.Service.Health;
-using SiloWatch.Service.Hosting;
 using SiloWatch.Service.Ingest;
 
 namespace SiloWatch.Integration.Tests;
@@ -21,40 +18,28 @@ namespace SiloWatch.Integration.Tests;
 /// </summary>
 public sealed class IngestLagTests : IAsyncDisposable
 {
-    private static readonly DateTimeOffset Start = new(2026, 12, 1, 10, 0, 0, TimeSpan.Zero);
-
-    private readonly FakeTimeProvider _time = new(Start);
-    private readonly string _folder = Directory.CreateTempSubdirectory("silowatch-lag-").FullName;
-    private readonly CancellationTokenSource _stop = new();
-    private readonly WebApplication _app;
-    private readonly TelemetryIngest _ingest;
+    private readonly FakeClockHost _host = new("lag-0");
     private readonly SiloPipeline _pipeline;
     private long _seq;
 
     public IngestLagTests()
     {
-        _app = SiloWatchApp.Build([
-            $"--Storage:EmbeddedPath={Path.Combine(_folder, "series.db")}",
-            $"--Storage:JournalPath={Path.Combine(_folder, "journal.db")}",
-            "--Mqtt:Host=127.0.0.1", "--Mqtt:Port=1", "--Instance:Id=lag-0",
-            "--Instance:Partitions=1", "--Instance:LogInterval=00:00:00",
-            $"--Instance:PlantFile={Path.Combine(AppContext.BaseDirectory, "config", "plant.demo.json")}",
-            $"--Instance:MaterialsFile={Path.Combine(AppContext.BaseDirectory, "config", "materials.json")}",
-            "--Demo:RunSimulator=false", "--Health:Urls=http://127.0.0.1:0", "--Serilog:MinimumLevel:Default=Warning"],
-            b => b.Services.AddSingleton<TimeProvider>(_time));
-        _ingest = _app.Services.GetRequiredService<TelemetryIngest>();
-        _pipeline = _ingest.Pipelines.Single(p => p.Silo.Key == "brackenford/S1");
-        _ingest.Start(() => 1, _stop.Token);
+        _pipeline = _host.Pipeline("brackenford/S1");
+        _host.StartWorkers();
     }
 
-    private PartitionWorker Worker => _ingest.Workers.Single();
+    private FakeTimeProvider Time => _host.Time;
+
+    private TelemetryIngest Ingest => _host.Ingest;
+
+    private PartitionWorker Worker => _host.Worker;
 
     [Fact]
     public async Task AMessageTakenEightSecondsAfterItsReceiptIsLagAndOneTakenAsItArrivesIsNot()
     {
         var log = new CountingLogger();
-        var watch = new IngestLagWatch(_ingest, _time, log);
-        var nowMs = _time.GetUtcNow().ToUnixTimeMilliseconds();
+        var watch = new IngestLagWatch(Ingest, Time, log);
+        var nowMs = Time.GetUtcNow().ToUnixTimeMilliseconds();
 
         await SendAsync(receivedMs: nowMs - 8000);
 
@@ -66,15 +51,15 @@ public sealed class IngestLagTests : IAsyncDisposable
         Assert.Equal(1, log.Warnings);
 
         // The same figure a second later is no news: the worker has taken nothing since, and nothing waits.
-        _time.Advance(TimeSpan.FromSeconds(1));
-        Assert.Empty(watch.Check(_time.GetUtcNow().ToUnixTimeMilliseconds()));
+        Time.Advance(TimeSpan.FromSeconds(1));
+        Assert.Empty(watch.Check(Time.GetUtcNow().ToUnixTimeMilliseconds()));
 
         // A message taken as it arrives: no lag, nothing reported.
-        nowMs = _time.GetUtcNow().ToUnixTimeMilliseconds();
+        nowMs = Time.GetUtcNow().ToUnixTimeMilliseconds();
         await SendAsync(receivedMs: nowMs);
         Assert.Equal(0, QueueHealth.Of(Worker, nowMs).LastDelayMs);
-        _time.Advance(TimeSpan.FromSeconds(1));
-        Assert.Empty(watch.Check(_time.GetUtcNow().ToUnixTimeMilliseconds()));
+        Time.Advance(TimeSpan.FromSeconds(1));
+        Assert.Empty(watch.Check(Time.GetUtcNow().ToUnixTimeMilliseconds()));
         Assert.Equal(1, log.Warnings);
     }
 
@@ -82,18 +67,18 @@ public sealed class IngestLagTests : IAsyncDisposable
     public async Task BehindAgainWithinTheWarningIntervalIsReportedButNotLoggedAgain()
     {
         var log = new CountingLogger();
-        var watch = new IngestLagWatch(_ingest, _time, log);
+        var watch = new IngestLagWatch(Ingest, Time, log);
         for (var i = 0; i < 3; i++)
         {
-            var nowMs = _time.GetUtcNow().ToUnixTimeMilliseconds();
+            var nowMs = Time.GetUtcNow().ToUnixTimeMilliseconds();
             await SendAsync(receivedMs: nowMs - 6000);
             Assert.Single(watch.Check(nowMs));
-            _time.Advance(TimeSpan.FromSeconds(1));
+            Time.Advance(TimeSpan.FromSeconds(1));
         }
 
         Assert.Equal(1, log.Warnings);
-        _time.Advance(IngestLagWatch.WarnInterval);
-        var later = _time.GetUtcNow().ToUnixTimeMilliseconds();
+        Time.Advance(IngestLagWatch.WarnInterval);
+        var later = Time.GetUtcNow().ToUnixTimeMilliseconds();
         await SendAsync(receivedMs: later - 6000);
         Assert.Single(watch.Check(later));
         Assert.Equal(2, log.Warnings);
@@ -136,13 +121,5 @@ public sealed class IngestLagTests : IAsyncDisposable
         }
     }
 
-    public async ValueTask DisposeAsync()
-    {
-        await _stop.CancelAsync();
-        await _ingest.DrainAsync(CancellationToken.None).WaitAsync(TimeSpan.FromSeconds(30));
-        await _ingest.Acks.DisposeAsync();
-        await _app.DisposeAsync();
-        _stop.Dispose();
-        Directory.Delete(_folder, recursive: true);
-    }
+    public ValueTask DisposeAsync() => _host.DisposeAsync();
 }

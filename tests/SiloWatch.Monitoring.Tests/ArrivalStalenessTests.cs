@@ -1,3 +1,5 @@
+using Microsoft.Extensions.Time.Testing;
+using SiloWatch.Mechanics;
 using SiloWatch.Monitoring.Tests.Support;
 using SiloWatch.Monitoring.Wall;
 
@@ -16,42 +18,16 @@ public sealed class ArrivalStalenessTests
 
     private static int Index(Plant.SiloRef silo, string id) => silo.TryGetSensor(id, out var s) ? s.Index : throw new ArgumentException(id);
 
-    /// <summary>
-    /// One message per second for <paramref name="seconds"/> from <paramref name="startMs"/>, each received
-    /// <see cref="TransitMs"/> after its samples' time and processed <see cref="BacklogMs"/> after its receipt.
-    /// Returns the receipt of the last message.
-    /// </summary>
-    private static long Backlogged(SiloMonitor monitor, SignalSource source, double massKg, long startMs, int seconds)
-    {
-        var received = startMs;
-        for (var i = 0; i < seconds; i++)
-        {
-            var ts = startMs + (i * 1000L);
-            received = ts + TransitMs;
-            monitor.OnArrival(received);
-            foreach (var sample in source.Scan(massKg, ts))
-            {
-                monitor.OnSample(sample);
-            }
-        }
-
-        return received;
-    }
-
     [Fact]
     public void SamplesProcessedTenSecondsAfterTheirReceiptWithMoreQueuedAreNotStale()
     {
-        var (monitor, time, silo, model) = DemoPlant.Monitor("S1");
-        var queued = true;
-        monitor.TrackArrivals(() => queued);
-        var source = new SignalSource(silo, model);
-        var mass = 0.6 * model.CapacityKg;
-        var received = Backlogged(monitor, source, mass, time.GetUtcNow().ToUnixTimeMilliseconds(), 90);
-        var now = received + BacklogMs;
-        time.SetUtcNow(DateTimeOffset.FromUnixTimeMilliseconds(now));
+        var feed = new BackloggedFeed();
+        var received = feed.Run(90);
+        var now = feed.CatchUpTo(received + BacklogMs);
+        var monitor = feed.Monitor;
 
         Assert.Equal(received, monitor.ArrivalsSeenUntil(now));
-        foreach (var s in silo.Sensors)
+        foreach (var s in feed.Silo.Sensors)
         {
             Assert.Equal(QualityFlags.None, monitor.SensorFlags(s.Index, now) & QualityFlags.Stale);
         }
@@ -60,25 +36,21 @@ public sealed class ArrivalStalenessTests
         var e = monitor.Evaluate(now);
         Assert.NotEqual(Quality.Bad, e.Quality);
         Assert.DoesNotContain("held", e.QualityReason, StringComparison.Ordinal);
-        Assert.True(Math.Abs(e.MassKg - mass) < 0.002 * model.CapacityKg, $"error {e.MassKg - mass:0} kg");
+        Assert.True(Math.Abs(e.MassKg - feed.MassKg) < 0.002 * feed.Model.CapacityKg, $"error {e.MassKg - feed.MassKg:0} kg");
     }
 
     [Fact]
     public void WithTheQueueEmptyAndTheGatewaySilentTheSameSamplesAreStaleOnTheClock()
     {
-        var (monitor, time, silo, model) = DemoPlant.Monitor("S1");
-        var queued = true;
-        monitor.TrackArrivals(() => queued);
-        var source = new SignalSource(silo, model);
-        var received = Backlogged(monitor, source, 0.6 * model.CapacityKg, time.GetUtcNow().ToUnixTimeMilliseconds(), 90);
-        var now = received + BacklogMs;
-        time.SetUtcNow(DateTimeOffset.FromUnixTimeMilliseconds(now));
+        var feed = new BackloggedFeed();
+        var now = feed.CatchUpTo(feed.Run(90) + BacklogMs);
+        var monitor = feed.Monitor;
 
         // Everything received has been processed and nothing more came: the gateway has been silent for ten seconds.
-        queued = false;
+        feed.Queued = false;
 
         Assert.Equal(now, monitor.ArrivalsSeenUntil(now));
-        foreach (var s in silo.Sensors.Where(s => s.Options.Kind != Plant.SensorKind.Temperature))
+        foreach (var s in feed.Silo.Sensors.Where(s => s.Options.Kind != Plant.SensorKind.Temperature))
         {
             Assert.NotEqual(QualityFlags.None, monitor.SensorFlags(s.Index, now) & QualityFlags.Stale);
         }
@@ -92,51 +64,41 @@ public sealed class ArrivalStalenessTests
     [Fact]
     public void ASensorMissingFromEveryMessageWhileTheOthersArriveIsStaleUnderTheSameBacklog()
     {
-        var (monitor, time, silo, model) = DemoPlant.Monitor("S1");
-        monitor.TrackArrivals(() => true);
-        var source = new SignalSource(silo, model);
-        var mass = 0.6 * model.CapacityKg;
-        var start = time.GetUtcNow().ToUnixTimeMilliseconds();
-        var received = Backlogged(monitor, source, mass, start, 60);
+        var feed = new BackloggedFeed();
+        feed.Run(60);
 
         // SG-R1-120 stops; the others keep arriving, and the service stays ten seconds behind.
-        source.Silent.Add("SG-R1-120");
-        received = Backlogged(monitor, source, mass, received - TransitMs + 1000, 30);
-        var now = received + BacklogMs;
+        feed.Source.Silent.Add("SG-R1-120");
+        var now = feed.Run(30) + BacklogMs;
 
-        var gauge = Index(silo, "SG-R1-120");
-        Assert.NotEqual(QualityFlags.None, monitor.SensorFlags(gauge, now) & QualityFlags.Stale);
-        foreach (var s in silo.Sensors.Where(s => s.Index != gauge))
+        var gauge = Index(feed.Silo, "SG-R1-120");
+        Assert.NotEqual(QualityFlags.None, feed.Monitor.SensorFlags(gauge, now) & QualityFlags.Stale);
+        foreach (var s in feed.Silo.Sensors.Where(s => s.Index != gauge))
         {
-            Assert.Equal(QualityFlags.None, monitor.SensorFlags(s.Index, now) & QualityFlags.Stale);
+            Assert.Equal(QualityFlags.None, feed.Monitor.SensorFlags(s.Index, now) & QualityFlags.Stale);
         }
     }
 
     [Fact]
     public void WithoutArrivalsTrackedStalenessIsJudgedAtTheEvaluationTime()
     {
-        var (monitor, time, silo, model) = DemoPlant.Monitor("S1");
-        var source = new SignalSource(silo, model);
-        var received = Backlogged(monitor, source, 0.6 * model.CapacityKg, time.GetUtcNow().ToUnixTimeMilliseconds(), 30);
-        var now = received + BacklogMs;
+        var feed = new BackloggedFeed(trackArrivals: false);
+        var now = feed.Run(30) + BacklogMs;
 
         // Nothing tells the monitor that messages wait: ten seconds without a sample is ten seconds.
-        Assert.Equal(now, monitor.ArrivalsSeenUntil(now));
-        Assert.NotEqual(QualityFlags.None, monitor.SensorFlags(Index(silo, "LC1"), now) & QualityFlags.Stale);
+        Assert.Equal(now, feed.Monitor.ArrivalsSeenUntil(now));
+        Assert.NotEqual(QualityFlags.None, feed.Monitor.SensorFlags(Index(feed.Silo, "LC1"), now) & QualityFlags.Stale);
     }
 
     [Fact]
     public void TheWallWatchUsesTheRingGaugesOfABackloggedSiloAndRaisesNoSensorBadCondition()
     {
-        var (monitor, time, silo, model) = DemoPlant.Monitor("S1");
-        monitor.TrackArrivals(() => true);
-        var source = new SignalSource(silo, model);
-        var received = Backlogged(monitor, source, 0.6 * model.CapacityKg, time.GetUtcNow().ToUnixTimeMilliseconds(), 60);
-        var now = received + BacklogMs;
-        time.SetUtcNow(DateTimeOffset.FromUnixTimeMilliseconds(now));
+        var feed = new BackloggedFeed();
+        var now = feed.CatchUpTo(feed.Run(60) + BacklogMs);
+        var monitor = feed.Monitor;
         var estimate = monitor.Evaluate(now);
 
-        var judgedAtArrival = new WallWatch(silo, model, new WallWatchOptions());
+        var judgedAtArrival = new WallWatch(feed.Silo, feed.Model, new WallWatchOptions());
         judgedAtArrival.Update(monitor.Readings);
         var a = judgedAtArrival.Evaluate(now, estimate, monitor.ArrivalsSeenUntil(now));
 
@@ -145,8 +107,68 @@ public sealed class ArrivalStalenessTests
         Assert.All(a.Conditions.Where(c => c.Condition.Contains("/sensor-bad/", StringComparison.Ordinal)), c => Assert.Equal(0.0, c.Value));
 
         // Judged at the evaluation time instead, every gauge value is ten seconds old and none is used.
-        var judgedAtNow = new WallWatch(silo, model, new WallWatchOptions());
+        var judgedAtNow = new WallWatch(feed.Silo, feed.Model, new WallWatchOptions());
         judgedAtNow.Update(monitor.Readings);
         Assert.All(judgedAtNow.Evaluate(now, estimate).Rings, r => Assert.Equal(0, r.GoodGauges));
+    }
+
+    /// <summary>
+    /// Demo silo S1 fed one message per second at 60 % full, each received <see cref="TransitMs"/> after its
+    /// samples' time and processed <see cref="BacklogMs"/> after its receipt, more of its messages waiting
+    /// (<see cref="Queued"/>) unless the test says otherwise.
+    /// </summary>
+    private sealed class BackloggedFeed
+    {
+        private long _nextMs;
+
+        public BackloggedFeed(bool trackArrivals = true)
+        {
+            (Monitor, Time, Silo, Model) = DemoPlant.Monitor("S1");
+            Source = new SignalSource(Silo, Model);
+            MassKg = 0.6 * Model.CapacityKg;
+            _nextMs = Time.GetUtcNow().ToUnixTimeMilliseconds();
+            if (trackArrivals)
+            {
+                Monitor.TrackArrivals(() => Queued);
+            }
+        }
+
+        public SiloMonitor Monitor { get; }
+
+        public FakeTimeProvider Time { get; }
+
+        public Plant.SiloRef Silo { get; }
+
+        public SiloModel Model { get; }
+
+        public SignalSource Source { get; }
+
+        public double MassKg { get; }
+
+        public bool Queued { get; set; } = true;
+
+        /// <summary>Passes on the next <paramref name="seconds"/> messages; returns the receipt of the last.</summary>
+        public long Run(int seconds)
+        {
+            var received = _nextMs;
+            for (var i = 0; i < seconds; i++, _nextMs += 1000)
+            {
+                received = _nextMs + TransitMs;
+                Monitor.OnArrival(received);
+                foreach (var sample in Source.Scan(MassKg, _nextMs))
+                {
+                    Monitor.OnSample(sample);
+                }
+            }
+
+            return received;
+        }
+
+        /// <summary>Sets the clock to <paramref name="nowMs"/> and returns it.</summary>
+        public long CatchUpTo(long nowMs)
+        {
+            Time.SetUtcNow(DateTimeOffset.FromUnixTimeMilliseconds(nowMs));
+            return nowMs;
+        }
     }
 }
