@@ -14,7 +14,8 @@ namespace SiloWatch.Integration.Tests;
 /// The service being behind shows in its ingest lag, not in its silos' sensor quality: a partition worker
 /// on a fake clock takes a message received eight seconds earlier; /health's figures for the partition say
 /// how long it waited, and the lag watch reports the partition (and logs one warning line for it), while
-/// a message taken as it arrives is no lag. The real host's wiring and the demo plant; no broker.
+/// a message taken as it arrives is no lag; a worker that takes nothing while a message waits is reported
+/// from the second check that finds it so. The real host's wiring and the demo plant; no broker.
 /// </summary>
 public sealed class IngestLagTests : IAsyncDisposable
 {
@@ -22,11 +23,7 @@ public sealed class IngestLagTests : IAsyncDisposable
     private readonly SiloPipeline _pipeline;
     private long _seq;
 
-    public IngestLagTests()
-    {
-        _pipeline = _host.Pipeline("brackenford/S1");
-        _host.StartWorkers();
-    }
+    public IngestLagTests() => _pipeline = _host.Pipeline("brackenford/S1");
 
     private FakeTimeProvider Time => _host.Time;
 
@@ -37,6 +34,7 @@ public sealed class IngestLagTests : IAsyncDisposable
     [Fact]
     public async Task AMessageTakenEightSecondsAfterItsReceiptIsLagAndOneTakenAsItArrivesIsNot()
     {
+        _host.StartWorkers();
         var log = new CountingLogger();
         var watch = new IngestLagWatch(Ingest, Time, log);
         var nowMs = Time.GetUtcNow().ToUnixTimeMilliseconds();
@@ -66,6 +64,7 @@ public sealed class IngestLagTests : IAsyncDisposable
     [Fact]
     public async Task BehindAgainWithinTheWarningIntervalIsReportedButNotLoggedAgain()
     {
+        _host.StartWorkers();
         var log = new CountingLogger();
         var watch = new IngestLagWatch(Ingest, Time, log);
         for (var i = 0; i < 3; i++)
@@ -84,21 +83,52 @@ public sealed class IngestLagTests : IAsyncDisposable
         Assert.Equal(2, log.Warnings);
     }
 
+    [Fact]
+    public void AWorkerThatTakesNothingWhileMessagesWaitIsReportedFromTheSecondCheckThatFindsItSo()
+    {
+        // The worker is not started: what is written to its queue stays there, as behind a worker starved of CPU.
+        var log = new CountingLogger();
+        var watch = new IngestLagWatch(Ingest, Time, log);
+        var receivedMs = Time.GetUtcNow().ToUnixTimeMilliseconds();
+        _pipeline.Process(Payload(receivedMs), receivedMs);
+        _pipeline.Enqueuing();
+        Assert.True(Worker.Writer.TryWrite(Message(receivedMs + 100)));
+
+        Time.Advance(TimeSpan.FromSeconds(6));
+        Assert.Empty(watch.Check(Time.GetUtcNow().ToUnixTimeMilliseconds())); // the first look: nothing to compare with
+        Time.Advance(TimeSpan.FromSeconds(1));
+        var nowMs = Time.GetUtcNow().ToUnixTimeMilliseconds();
+        Assert.Empty(watch.Check(nowMs)); // nothing taken since the last look, once: could be a message just arriving
+        var health = QueueHealth.Of(Worker, nowMs);
+        Assert.Equal(1, health.Depth);
+        Assert.Equal(7000, health.WaitingAtMostMs);
+
+        Time.Advance(TimeSpan.FromSeconds(1));
+        var behind = Assert.Single(watch.Check(Time.GetUtcNow().ToUnixTimeMilliseconds()));
+        Assert.Equal(8000, behind.WaitingAtMostMs);
+        Assert.Equal(1, log.Warnings);
+    }
+
     /// <summary>Writes one message of S1 received at <paramref name="receivedMs"/> to the worker's queue and waits until it is processed.</summary>
     private async Task SendAsync(long receivedMs)
     {
-        var json = JsonSerializer.Serialize(new
-        {
-            pub = "lag-gw",
-            seq = ++_seq,
-            ts = receivedMs,
-            samples = new[] { new { sensor = "LC1", value = 0.8 + (0.001 * _seq), unit = "mV/V" } },
-        });
         var processed = Worker.MessagesProcessed;
         _pipeline.Enqueuing();
-        await Worker.Writer.WriteAsync(IngestMessage.Copy(_pipeline, new ReadOnlySequence<byte>(Encoding.UTF8.GetBytes(json)), receivedMs, ticket: null));
+        await Worker.Writer.WriteAsync(Message(receivedMs));
         await TestMqtt.WaitForAsync(() => Worker.MessagesProcessed > processed, $"message {_seq} processed");
     }
+
+    private IngestMessage Message(long receivedMs) =>
+        IngestMessage.Copy(_pipeline, new ReadOnlySequence<byte>(Payload(receivedMs)), receivedMs, ticket: null);
+
+    /// <summary>A message of S1's first load cell, stamped at its receipt.</summary>
+    private byte[] Payload(long receivedMs) => Encoding.UTF8.GetBytes(JsonSerializer.Serialize(new
+    {
+        pub = "lag-gw",
+        seq = ++_seq,
+        ts = receivedMs,
+        samples = new[] { new { sensor = "LC1", value = 0.8 + (0.001 * _seq), unit = "mV/V" } },
+    }));
 
     /// <summary>Counts the warnings written (the lag watch's only output besides what it returns).</summary>
     private sealed class CountingLogger : ILogger<IngestLagWatch>

@@ -41,8 +41,9 @@ public readonly record struct PartitionLag(int Partition, int Depth, long LastDe
 
 /// <summary>
 /// Watches the partitions' ingest lag once a second and logs a warning, at most once a minute with the
-/// number of lines left out, when a worker falls behind by more than <see cref="WarnAfter"/>: it took a
-/// message that had waited longer, or it took none for a whole check while messages waited longer. This is
+/// number of checks left out, when a worker falls behind by more than <see cref="WarnAfter"/>: it took a
+/// message that had waited longer, or it took none for two checks in a row while messages waited longer
+/// (one check could fall on a message just arriving after a quiet spell, before the worker takes it). This is
 /// the place the service being behind shows (with the queue depths and lags of /health); the silos' sensor
 /// quality and alarms judge staleness against arrival and stay quiet (see <c>SiloMonitor.ArrivalsSeenUntil</c>).
 /// </summary>
@@ -57,7 +58,7 @@ public sealed class IngestLagWatch(TelemetryIngest ingest, TimeProvider time, IL
 
     private static readonly TimeSpan CheckInterval = TimeSpan.FromSeconds(1);
 
-    private readonly Dictionary<int, long> _lastTakenMs = [];
+    private readonly Dictionary<int, (long TakenMs, bool Stalled)> _previous = [];
     private long _warnedMs = long.MinValue;
     private int _leftOut;
 
@@ -85,10 +86,11 @@ public sealed class IngestLagWatch(TelemetryIngest ingest, TimeProvider time, IL
         foreach (var worker in ingest.Workers)
         {
             var lag = PartitionLag.Of(worker, nowMs);
-            var seen = _lastTakenMs.TryGetValue(lag.Partition, out var before);
-            _lastTakenMs[lag.Partition] = lag.LastTakenMs;
-            var tookSince = !seen || lag.LastTakenMs != before;
-            if ((tookSince && lag.LastDelayMs > limitMs) || (seen && !tookSince && lag.WaitingAtMostMs > limitMs))
+            var seen = _previous.TryGetValue(lag.Partition, out var before);
+            var tookSince = !seen || lag.LastTakenMs != before.TakenMs;
+            var stalled = !tookSince && lag.WaitingAtMostMs > limitMs;
+            _previous[lag.Partition] = (lag.LastTakenMs, stalled);
+            if ((tookSince && lag.LastDelayMs > limitMs) || (stalled && before.Stalled))
             {
                 behind.Add(lag);
             }
