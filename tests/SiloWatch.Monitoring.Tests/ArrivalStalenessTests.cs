@@ -9,7 +9,8 @@ namespace SiloWatch.Monitoring.Tests;
 /// Staleness judged against arrival (<see cref="SiloMonitor.ArrivalsSeenUntil"/>): samples processed ten
 /// seconds after they were received, with more of the silo's messages still waiting, are not stale; a
 /// gateway that stopped is stale once nothing of it waits; a sensor missing from every message while the
-/// others arrive is stale under the same backlog. The demo silo S1 on a fake clock, invented signals.
+/// others arrive is stale under the same backlog; the wall watch uses the gauges and the outlet signal of a
+/// backlogged silo. The demo silo S1 on a fake clock, invented signals.
 /// </summary>
 public sealed class ArrivalStalenessTests
 {
@@ -110,6 +111,27 @@ public sealed class ArrivalStalenessTests
         var judgedAtNow = new WallWatch(feed.Silo, feed.Model, new WallWatchOptions());
         judgedAtNow.Update(monitor.Readings);
         Assert.All(judgedAtNow.Evaluate(now, estimate).Rings, r => Assert.Equal(0, r.GoodGauges));
+    }
+
+    [Fact]
+    public void AnOpenOutletSignalBehindABacklogLongerThanItsTimeoutStillDecidesTheDischarge()
+    {
+        var options = new WallWatchOptions();
+        var backlogMs = (long)options.OutletSignalTimeout.TotalMilliseconds + BacklogMs;
+        var t0 = DemoPlant.Start.ToUnixTimeMilliseconds();
+        var judgedAtArrival = new DischargeStateMachine(options);
+        var judgedAtNow = new DischargeStateMachine(options);
+        judgedAtArrival.Update(t0, null, t0);
+        judgedAtNow.Update(t0, null);
+
+        // The outlet opened at t0 + 1 s; its sample arrived 40 ms later and is processed 40 s after that.
+        var openMs = t0 + 1000;
+        judgedAtArrival.OnOutlet(openMs, open: true);
+        judgedAtNow.OnOutlet(openMs, open: true);
+        var nowMs = openMs + TransitMs + backlogMs;
+
+        Assert.Equal(DischargeState.Discharging, judgedAtArrival.Update(nowMs, null, openMs + TransitMs)?.To);
+        Assert.Null(judgedAtNow.Update(nowMs, null)); // 40 s old on the clock: past its timeout, and no rate to go by
     }
 
     /// <summary>
