@@ -24,7 +24,7 @@ namespace SiloWatch.Storage;
 /// intervals already written. Each series keeps the accumulators of the intervals within its rule's
 /// <see cref="DownsamplingOptions.LateMergeWindow"/> behind the interval being filled; a late point of
 /// one of them is merged in and that interval is written again at once with the same timestamp (the
-/// embedded store and InfluxDB keep the newer write; see the project's README for VictoriaMetrics).
+/// embedded store and InfluxDB keep the newer write; VictoriaMetrics does not reliably, see README.md).
 /// A point older than the window is counted in <see cref="StorageHealth.LatePoints"/>, logged, and
 /// not written. So is a point older than the first interval held since start or since a checkpoint
 /// was restored: what the store holds for earlier intervals is not known here, and writing such an
