@@ -52,9 +52,12 @@ public interface IIntervalCheckpoint
 /// <summary>
 /// The state of one open downsampling interval: its index (timestamp / interval, floored), whether
 /// it holds points not yet written, and the per-field accumulators (NaN and infinities included,
-/// so serialise with named floating-point literals allowed).
+/// so serialise with named floating-point literals allowed). A field keeps only the accumulators its
+/// aggregate needs; the others hold their empty value (sum 0, min +∞, max −∞, last NaN).
+/// <paramref name="LastTimestampMs"/> is the timestamp of each field's "last" value (long.MinValue
+/// for none), null when no field is aggregated as Last or in a checkpoint saved before it existed.
 /// </summary>
-public sealed record OpenInterval(long Bucket, bool Dirty, double[] Sum, int[] Count, double[] Min, double[] Max, double[] Last);
+public sealed record OpenInterval(long Bucket, bool Dirty, double[] Sum, int[] Count, double[] Min, double[] Max, double[] Last, long[]? LastTimestampMs = null);
 
 /// <summary>A snapshot of the write path's state, for health checks and the status page.</summary>
 public sealed record StorageHealth
@@ -98,7 +101,10 @@ public sealed record StorageHealth
     /// <summary>Points with no finite field value, which line protocol cannot carry.</summary>
     public long SkippedNonFinitePoints { get; init; }
 
-    /// <summary>Points that arrived for a downsampling interval already closed.</summary>
+    /// <summary>
+    /// Points of a downsampled series that came more than its rule's LateMergeWindow behind the
+    /// interval being filled, or before the first interval held since start: not written.
+    /// </summary>
     public long LatePoints { get; init; }
 
     public DateTimeOffset? LastStoredUtc { get; init; }

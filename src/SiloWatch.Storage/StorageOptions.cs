@@ -130,4 +130,18 @@ public sealed class DownsamplingOptions
 
     /// <summary>Per-field aggregate overrides, e.g. quality: Max (the worst code in the interval). Default none.</summary>
     public Dictionary<string, DownsampleAggregate> FieldAggregates { get; set; } = new(StringComparer.Ordinal);
+
+    /// <summary>
+    /// How far behind the interval being filled a late point (store-and-forward gateway, reordering
+    /// network) is still merged into its interval, which is then written again with the same
+    /// timestamp. Older points are counted (health: LatePoints), logged and not written. Memory grows
+    /// with it: each series keeps the window's intervals, allocated once (a sensor series at 1 s about
+    /// 72 bytes per second of window, an estimate series about 150). Default 30 s; 00:00:00 (only the
+    /// interval being filled takes points) to 01:00:00, and at most <see cref="MaxLateMergeIntervals"/>
+    /// intervals.
+    /// </summary>
+    public TimeSpan LateMergeWindow { get; set; } = TimeSpan.FromSeconds(30);
+
+    /// <summary>Upper bound of <see cref="LateMergeWindow"/> in intervals (memory per series).</summary>
+    public const int MaxLateMergeIntervals = 3600;
 }

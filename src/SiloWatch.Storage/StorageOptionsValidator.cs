@@ -90,6 +90,11 @@ public sealed class StorageOptionsValidator : IValidateOptions<StorageOptions>
             {
                 failures.Add($"{StorageOptions.SectionName}:Downsampling:{measurement}:Interval = '{rule.Interval}': must be 00:00:00 (off) or at least 1 ms");
             }
+            else if (rule.Interval > TimeSpan.Zero
+                && (rule.LateMergeWindow < TimeSpan.Zero || rule.LateMergeWindow > TimeSpan.FromHours(1) || Downsampler.LateIntervals(rule) > DownsamplingOptions.MaxLateMergeIntervals))
+            {
+                failures.Add($"{StorageOptions.SectionName}:Downsampling:{measurement}:LateMergeWindow = '{rule.LateMergeWindow}': must be 00:00:00 to 01:00:00 and at most {DownsamplingOptions.MaxLateMergeIntervals} intervals of {rule.Interval}");
+            }
         }
 
         return failures.Count == 0 ? ValidateOptionsResult.Success : ValidateOptionsResult.Fail(failures);

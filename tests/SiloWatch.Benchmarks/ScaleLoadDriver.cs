@@ -21,6 +21,9 @@ namespace SiloWatch.Benchmarks;
 /// Each run is a fresh process; a run with few silos at the same load per silo is the memory baseline.
 /// Usage: dotnet run -c Release --project tests/SiloWatch.Benchmarks -- scale-load
 ///          [--silos 400] [--rate 20000] [--seconds 60] [--warmup 20] [--interval 00:00:01] [--baseline 4] [--min-evaluation 00:00:00.025]
+///          [--store server|embedded]
+/// The store is by default a time-series server (VictoriaMetrics on loopback, written through InfluxDB.Client, as a plant of
+/// hundreds of silos would run it); "embedded" is the single-file store of the demo and of small plants.
 /// </summary>
 public static class ScaleLoadDriver
 {
@@ -41,7 +44,7 @@ public static class ScaleLoadDriver
 
         Console.WriteLine($"scale-load: the demo plant copied to {settings.Silos} silos (S1, S2, C1, F1 in turn; invented ids), " +
             $"{settings.Rate:N0} samples/s offered, {settings.Seconds} s measured after {settings.Warmup} s warm-up, " +
-            $"Instance:PublishInterval {settings.Interval}, Instance:MinEvaluationInterval {settings.MinEvaluation}, loopback only, {Environment.ProcessorCount} cores");
+            $"Instance:PublishInterval {settings.Interval}, Instance:MinEvaluationInterval {settings.MinEvaluation}, store: {settings.Store}, loopback only, {Environment.ProcessorCount} cores");
         var baseline = await RunChildAsync(settings with { Silos = settings.Baseline, Rate = settings.Rate * settings.Baseline / settings.Silos });
         var scaled = await RunChildAsync(settings);
         if (baseline is null || scaled is null)
@@ -145,13 +148,19 @@ public static class ScaleLoadDriver
 
         using var broker = StartMosquitto(folder, out var port);
         Console.WriteLine($"mosquitto on 127.0.0.1:{port}");
+        var storePort = 0;
+        using var store = settings.Store == "server" ? StartVictoriaMetrics(folder, out storePort) : null;
+        string[] storeArgs = store is null
+            ? [$"--Storage:EmbeddedPath={Path.Combine(folder, "series.db")}"]
+            : [$"--Storage:TimeSeries:Url=http://127.0.0.1:{storePort}"];
+        Console.WriteLine(store is null ? "store: embedded file" : $"store: victoria-metrics on 127.0.0.1:{storePort}");
         var building = Stopwatch.StartNew();
         var app = SiloWatchApp.Build([
             "--Mqtt:Host=127.0.0.1", $"--Mqtt:Port={port}", "--Mqtt:ClientId=silowatch-scale", "--Instance:Id=scale-0",
             $"--Instance:PublishInterval={settings.Interval}", $"--Instance:MinEvaluationInterval={settings.MinEvaluation}", "--Instance:LogInterval=00:00:00", "--Demo:RunSimulator=false",
             "--Health:Urls=http://127.0.0.1:0", "--Serilog:MinimumLevel:Default=Warning",
             $"--Instance:PlantFile={plantPath}", $"--Instance:MaterialsFile={Path.Combine(root, "config", "materials.json")}",
-            $"--Storage:EmbeddedPath={Path.Combine(folder, "series.db")}", $"--Storage:JournalPath={Path.Combine(folder, "journal.db")}",
+            .. storeArgs, $"--Storage:JournalPath={Path.Combine(folder, "journal.db")}",
             $"--Storage:TimeSeries:SpoolDirectory={Path.Combine(folder, "spool")}"]);
 
         var ledger = new Ledger(silos.Length, (int)(messagesPerS * (settings.Seconds + settings.Warmup + 30)));
@@ -246,7 +255,8 @@ public static class ScaleLoadDriver
             $"{snapshot.QueueFullWaits} queue-full waits, {snapshot.OutboundDropped} outbound dropped, {outboundQueue.Replaced:N0} waiting states replaced by newer ones, {snapshot.Published:N0} published; " +
             $"deepest partition queues {maxDepth}, outbound queue {maxOutbound}; {statesPerS:N0} states/s received, " +
             $"{newest.Length:N0} states and {every.Length:N0} messages matched; " +
-            $"GC gen0/1/2 {GC.CollectionCount(0)}/{GC.CollectionCount(1)}/{GC.CollectionCount(2)}"));
+            $"GC gen0/1/2 {GC.CollectionCount(0)}/{GC.CollectionCount(1)}/{GC.CollectionCount(2)}; " +
+            $"workers waited for a checkpoint in flight {ingest.Workers.Sum(w => w.CheckpointWaits)} time(s), {ingest.Workers.Sum(w => w.CheckpointWaitTime.TotalMilliseconds):F0} ms in all"));
         var stopping = Stopwatch.StartNew();
         try
         {
@@ -265,6 +275,11 @@ public static class ScaleLoadDriver
         await observer.WaitForExitAsync();
         broker.Kill();
         await broker.WaitForExitAsync();
+        if (store is not null)
+        {
+            store.Kill();
+            await store.WaitForExitAsync();
+        }
 
         return new RunResult(silos.Length, offered, sustained, Percentile(newest, 0.50), Percentile(newest, 0.99),
             Percentile(every, 0.50), Percentile(every, 0.99), Percentile(outbound, 0.50), Percentile(outbound, 0.99), backlogMs,
@@ -460,6 +475,46 @@ public static class ScaleLoadDriver
         throw new InvalidOperationException("mosquitto did not start: " + process.StandardError.ReadToEnd());
     }
 
+    /// <summary>VictoriaMetrics on a free loopback port with its data in <paramref name="folder"/> (the settings of tests/run.sh).</summary>
+    private static Process StartVictoriaMetrics(string folder, out int port)
+    {
+        var binary = Environment.GetEnvironmentVariable("SILOWATCH_TEST_VM_BIN") is { Length: > 0 } env
+            ? env
+            : new[] { "/usr/bin/victoria-metrics", "/usr/local/bin/victoria-metrics" }.FirstOrDefault(File.Exists)
+              ?? throw new InvalidOperationException("victoria-metrics is not installed (apt-get install victoria-metrics), or use --store embedded");
+        using (var listener = new TcpListener(IPAddress.Loopback, 0))
+        {
+            listener.Start();
+            port = ((IPEndPoint)listener.LocalEndpoint).Port;
+        }
+
+        var process = Process.Start(new ProcessStartInfo(binary,
+            [$"-httpListenAddr=127.0.0.1:{port}", $"-storageDataPath={Path.Combine(folder, "vm")}", "-dedup.minScrapeInterval=1ms", "-loggerLevel=ERROR"])
+        {
+            RedirectStandardError = true,
+            RedirectStandardOutput = true,
+        })!;
+        using var http = new HttpClient { Timeout = TimeSpan.FromSeconds(1) };
+        for (var i = 0; i < 100; i++)
+        {
+            try
+            {
+                if (http.GetAsync(new Uri($"http://127.0.0.1:{port}/health")).GetAwaiter().GetResult().IsSuccessStatusCode)
+                {
+                    return process;
+                }
+            }
+            catch (Exception ex) when (ex is HttpRequestException or TaskCanceledException)
+            {
+            }
+
+            Thread.Sleep(100);
+        }
+
+        process.Kill();
+        throw new InvalidOperationException("victoria-metrics did not start");
+    }
+
     private static Process StartObserver(string binaryBeside, int port)
     {
         var client = new[] { Path.Combine(Path.GetDirectoryName(binaryBeside) ?? "", "mosquitto_sub"), "/usr/bin/mosquitto_sub" }.FirstOrDefault(File.Exists)
@@ -490,11 +545,11 @@ public static class ScaleLoadDriver
         double EveryP50Ms, double EveryP99Ms, double OutboundP50Ms, double OutboundP99Ms, double IngestWaitMs,
         long HeapBytes, long WorkingSetBytes, double CpuPercent);
 
-    private sealed record Settings(int Silos, double Rate, int Seconds, int Warmup, TimeSpan Interval, int Baseline, TimeSpan MinEvaluation)
+    private sealed record Settings(int Silos, double Rate, int Seconds, int Warmup, TimeSpan Interval, int Baseline, TimeSpan MinEvaluation, string Store)
     {
         public static Settings Parse(string[] args)
         {
-            var s = new Settings(400, 20_000, 60, 20, TimeSpan.FromSeconds(1), 4, new InstanceOptions().MinEvaluationInterval);
+            var s = new Settings(400, 20_000, 60, 20, TimeSpan.FromSeconds(1), 4, new InstanceOptions().MinEvaluationInterval, "server");
             for (var i = 0; i + 1 < args.Length; i += 2)
             {
                 var v = args[i + 1];
@@ -507,6 +562,7 @@ public static class ScaleLoadDriver
                     "--interval" => s with { Interval = TimeSpan.Parse(v, CultureInfo.InvariantCulture) },
                     "--baseline" => s with { Baseline = int.Parse(v, CultureInfo.InvariantCulture) },
                     "--min-evaluation" => s with { MinEvaluation = TimeSpan.Parse(v, CultureInfo.InvariantCulture) },
+                    "--store" when v is "server" or "embedded" => s with { Store = v },
                     _ => throw new ArgumentException($"unknown option {args[i]}"),
                 };
             }
@@ -521,7 +577,7 @@ public static class ScaleLoadDriver
             "--silos", Silos.ToString(CultureInfo.InvariantCulture), "--rate", Rate.ToString("R", CultureInfo.InvariantCulture),
             "--seconds", Seconds.ToString(CultureInfo.InvariantCulture), "--warmup", Warmup.ToString(CultureInfo.InvariantCulture),
             "--interval", Interval.ToString("c", CultureInfo.InvariantCulture), "--baseline", Baseline.ToString(CultureInfo.InvariantCulture),
-            "--min-evaluation", MinEvaluation.ToString("c", CultureInfo.InvariantCulture),
+            "--min-evaluation", MinEvaluation.ToString("c", CultureInfo.InvariantCulture), "--store", Store,
         ];
     }
 

@@ -60,6 +60,35 @@ public sealed class SqliteTimeSeriesSinkTests : IDisposable
     }
 
     [Fact]
+    public async Task AnIntervalWrittenAgainForALatePointIsStoredOnceWithTheMergedValues()
+    {
+        var s = Some.SensorSeries("late");
+        var t0 = Base / 1000 * 1000;
+        var store = Open();
+        await using var sink = new Downsampler(store, new StorageOptions().Downsampling, _time, new TestLogger<Downsampler>());
+        sink.CloseIdleByCaller(s);
+        sink.Write(s, t0 + 100, [1, 10, 0]);
+        sink.Write(s, t0 + 600, [3, 30, 0]);
+        sink.Write(s, t0 + 1_000, [5, 50, 0]); // closes the first second
+        sink.Write(s, t0 + 2_000, [5, 50, 0]);
+        await ((ITimeSeriesSink)sink).FlushStoredAsync(CancellationToken.None);
+        Assert.Equal(20, Assert.Single(store.Query(Measurements.Sensor, SensorFields.Value, null, t0, t0 + 999)).Value, 12);
+
+        sink.Write(s, t0 + 900, [2, 80, 2]); // two seconds late
+        await ((ITimeSeriesSink)sink).FlushStoredAsync(CancellationToken.None);
+
+        StoredSample Only(string field) => Assert.Single(store.Query(Measurements.Sensor, field, null, t0, t0 + 999));
+        Assert.Equal(t0, Only(SensorFields.Value).TimestampMs);
+        Assert.Equal(40, Only(SensorFields.Value).Value, 12); // (10+30+80)/3
+        Assert.Equal(2, Only(SensorFields.Raw).Value, 12);
+        Assert.Equal(10, Only("value_min").Value);
+        Assert.Equal(80, Only("value_max").Value);
+        Assert.Equal(2, Only(SensorFields.Quality).Value);
+        Assert.Equal(50, Assert.Single(store.Query(Measurements.Sensor, SensorFields.Value, null, t0 + 1_000, t0 + 1_999)).Value);
+        Assert.Equal(0, sink.Health.LatePoints);
+    }
+
+    [Fact]
     public async Task WhenTheBufferIsFullTheCallerWritesToTheFileAndNothingIsLost()
     {
         var s = new SeriesKey("m", [], "v");

@@ -34,6 +34,29 @@ public sealed class StorageOptionsTests
         Assert.Contains("Storage:TimeSeries:FlushInterval", result.FailureMessage, StringComparison.Ordinal);
     }
 
+    [Theory]
+    [InlineData("00:00:00", "00:00:01", true)]
+    [InlineData("01:00:00", "00:00:01", true)]
+    [InlineData("00:06:00", "00:00:00.1", true)]   // 3600 intervals
+    [InlineData("-00:00:01", "00:00:01", false)]
+    [InlineData("01:00:01", "00:00:01", false)]
+    [InlineData("00:10:00", "00:00:00.1", false)]  // 6000 intervals
+    public void ALateMergeWindowIsValidFromZeroToAnHourWithinTheIntervalBoundAndOtherwiseNamedWithItsValue(string window, string interval, bool valid)
+    {
+        var options = new StorageOptions();
+        var rule = options.Downsampling[Measurements.Sensor];
+        rule.LateMergeWindow = TimeSpan.Parse(window, System.Globalization.CultureInfo.InvariantCulture);
+        rule.Interval = TimeSpan.Parse(interval, System.Globalization.CultureInfo.InvariantCulture);
+
+        var result = new StorageOptionsValidator().Validate(null, options);
+
+        Assert.Equal(valid, result.Succeeded);
+        if (!valid)
+        {
+            Assert.Contains($"Storage:Downsampling:sensor:LateMergeWindow = '{rule.LateMergeWindow}'", result.FailureMessage, StringComparison.Ordinal);
+        }
+    }
+
     [Fact]
     public void TheTokenComesFromTheEnvironmentFirstThenFromTheFirstLineOfTheTokenFile()
     {

@@ -39,7 +39,7 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
     /// <summary>
     /// Begins a checkpoint of the silos of <paramref name="pipelines"/> that took messages: captures
     /// them now (on the worker, so the capture is consistent), takes <paramref name="tickets"/> over
-    /// (the list is cleared) and starts the store flush and the journal save, which run while the
+    /// (the list is cleared) and starts writing them out, the store flush and the journal save, which run while the
     /// worker goes on processing. <see cref="Finish"/> acknowledges the tickets once that is done.
     /// </summary>
     public PendingCheckpoint Begin(IReadOnlyList<SiloPipeline> pipelines, List<AckTicket> tickets, long nowMs, CancellationToken ct)
@@ -47,20 +47,22 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
         ArgumentNullException.ThrowIfNull(pipelines);
         ArgumentNullException.ThrowIfNull(tickets);
         var captured = new List<(SiloPipeline Pipeline, IngestCheckpoint Checkpoint)>();
-        var saves = new List<(string SiloKey, string Kind, string Json)>();
         foreach (var pipeline in pipelines)
         {
             if (pipeline.NeedsCheckpoint)
             {
-                var checkpoint = pipeline.CaptureCheckpoint(nowMs);
-                captured.Add((pipeline, checkpoint));
-                saves.Add((pipeline.Silo.Key, Kind, JsonSerializer.Serialize(checkpoint, Json)));
+                captured.Add((pipeline, pipeline.CaptureCheckpoint(nowMs)));
             }
         }
 
         var taken = new List<AckTicket>(tickets);
         tickets.Clear();
-        return new PendingCheckpoint(captured, taken, StoreAsync(saves, ct));
+
+        // The store flush starts now, so it covers what was written before the capture. A capture is a copy
+        // (the worker goes on changing the silo), so writing it out is not the worker's job.
+        var flushing = sink.FlushStoredAsync(ct);
+        var writing = Task.Run(() => Serialize(captured), CancellationToken.None);
+        return new PendingCheckpoint(captured, taken, StoreAsync(flushing, writing));
     }
 
     /// <summary>
@@ -97,16 +99,27 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
         return true;
     }
 
-    private async Task StoreAsync(List<(string SiloKey, string Kind, string Json)> saves, CancellationToken ct)
+    private static List<(string SiloKey, string Kind, string Json)> Serialize(List<(SiloPipeline Pipeline, IngestCheckpoint Checkpoint)> captured)
     {
-        await sink.FlushStoredAsync(ct).ConfigureAwait(false);
+        var saves = new List<(string SiloKey, string Kind, string Json)>(captured.Count);
+        foreach (var (pipeline, checkpoint) in captured)
+        {
+            saves.Add((pipeline.Silo.Key, Kind, JsonSerializer.Serialize(checkpoint, Json)));
+        }
+
+        return saves;
+    }
+
+    private async Task StoreAsync(Task flushing, Task<List<(string SiloKey, string Kind, string Json)>> writing)
+    {
+        await flushing.ConfigureAwait(false);
+        var saves = await writing.ConfigureAwait(false);
         if (saves.Count > 0)
         {
             journal.SaveSnapshots(saves);
         }
     }
 
-    /// <summary>The silo's saved checkpoint, or null (none, or unreadable: <paramref name="problem"/> says why).</summary>
     public IngestCheckpoint? Load(string siloKey, out string? problem)
     {
         problem = null;

@@ -135,8 +135,8 @@ public sealed class PartitionWorker
             }
 
             EvaluateDue(NowMs());
-            var checkpointAt = _nextCheckpoint;
-            if (reader.Count == 0 && _uncheckpointed.Count > 0)
+            var checkpointAt = CheckpointInFlight ? DateTimeOffset.MaxValue : _nextCheckpoint; // in flight: its end wakes the wait
+            if (reader.Count == 0 && _uncheckpointed.Count > 0 && !CheckpointInFlight)
             {
                 var idle = _lastCheckpoint + IdleCheckpointGap;
                 checkpointAt = idle < checkpointAt ? idle : checkpointAt;
@@ -226,13 +226,13 @@ public sealed class PartitionWorker
 
                 EvaluateDue(nowMs);
                 Interlocked.Increment(ref _processed);
-                if (_uncheckpointed.Count >= _checkpoints.MaxMessages || _time.GetUtcNow() >= _nextCheckpoint)
+                if (CheckpointDue())
                 {
                     break;
                 }
             }
 
-            if (_uncheckpointed.Count >= _checkpoints.MaxMessages || _time.GetUtcNow() >= _nextCheckpoint)
+            if (CheckpointDue())
             {
                 await CheckpointAsync(stoppingToken).ConfigureAwait(false);
             }
@@ -283,6 +283,34 @@ public sealed class PartitionWorker
     }
 
     private long NowMs() => _time.GetUtcNow().ToUnixTimeMilliseconds();
+
+    /// <summary>A checkpoint is being stored and has not finished yet.</summary>
+    private bool CheckpointInFlight => _pending is { Done.IsCompleted: false };
+
+    /// <summary>
+    /// Messages waiting for a checkpoint beyond which the worker waits for the one in flight rather
+    /// than go on: a store that stays slow then slows the intake, and what is held stays bounded.
+    /// </summary>
+    private int HoldLimit => 4 * _checkpoints.MaxMessages;
+
+    /// <summary>
+    /// The next checkpoint is due (enough messages, or its interval has passed) and can begin: the one
+    /// in flight, if any, has finished. While one is in flight the worker goes on processing and the
+    /// due checkpoint begins as soon as that one ends, so a slow store flush or journal save delays
+    /// acknowledgements, not the silos' estimates; only past <see cref="HoldLimit"/> does it wait.
+    /// </summary>
+    private bool CheckpointDue() =>
+        (_uncheckpointed.Count >= _checkpoints.MaxMessages || _time.GetUtcNow() >= _nextCheckpoint)
+        && (!CheckpointInFlight || _uncheckpointed.Count >= HoldLimit);
+
+    /// <summary>Times the worker waited for a checkpoint in flight to finish before it could begin the next (it was at its hold limit, or stopping).</summary>
+    public long CheckpointWaits => Interlocked.Read(ref _checkpointWaits);
+
+    /// <summary>The time those waits took in all.</summary>
+    public TimeSpan CheckpointWaitTime => TimeSpan.FromTicks(Interlocked.Read(ref _checkpointWaitTicks));
+
+    private long _checkpointWaits;
+    private long _checkpointWaitTicks;
 
     /// <summary>The earliest moment a held or a timed evaluation is due.</summary>
     private long NextDueMs()
@@ -351,8 +379,7 @@ public sealed class PartitionWorker
 
     /// <summary>
     /// Begins a checkpoint of what was processed, once the one in flight (if any) is finished: the
-    /// worker waits for a store flush only when the previous checkpoint has not been stored by the
-    /// time the next is due, not for every checkpoint.
+    /// worker waits for one only at its hold limit (<see cref="CheckpointDue"/>) and when it stops.
     /// </summary>
     private async Task CheckpointAsync(CancellationToken stoppingToken)
     {
@@ -377,7 +404,14 @@ public sealed class PartitionWorker
     {
         if (_pending is { } pending)
         {
-            await ((Task)pending.Done).ConfigureAwait(ConfigureAwaitOptions.SuppressThrowing);
+            if (!pending.Done.IsCompleted)
+            {
+                var started = System.Diagnostics.Stopwatch.GetTimestamp();
+                await ((Task)pending.Done).ConfigureAwait(ConfigureAwaitOptions.SuppressThrowing);
+                Interlocked.Increment(ref _checkpointWaits);
+                Interlocked.Add(ref _checkpointWaitTicks, System.Diagnostics.Stopwatch.GetElapsedTime(started).Ticks);
+            }
+
             FinishPending();
         }
     }
