@@ -250,27 +250,31 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
         await _gate.WaitAsync(ct).ConfigureAwait(false);
         try
         {
+            // A sliding window: the next message goes out as soon as the oldest in flight is acknowledged,
+            // so the window stays full. Waiting for a whole window before sending the next one left the
+            // connection idle for a round trip per window, which capped states at about a window per
+            // round trip when the broker was slow to answer (scale-load on a busy machine).
             var window = Volatile.Read(ref _receiveMaximum);
             var inFlight = new Task[Math.Min(window, messages.Count)];
-            for (var start = 0; start < messages.Count; start += window)
+            for (var i = 0; i < messages.Count + inFlight.Length; i++)
             {
-                var count = Math.Min(window, messages.Count - start);
-                for (var i = 0; i < count; i++)
+                if (i >= inFlight.Length)
                 {
-                    var m = messages[start + i];
-                    inFlight[i] = PublishCoreAsync(m.Topic, m.Payload, m.Retain, m.Qos, ct);
-                }
-
-                for (var i = 0; i < count; i++)
-                {
+                    var oldest = i - inFlight.Length;
                     try
                     {
-                        await inFlight[i].ConfigureAwait(false);
+                        await inFlight[oldest % inFlight.Length].ConfigureAwait(false);
                     }
                     catch (MqttPublishException ex)
                     {
-                        results[start + i] = ex;
+                        results[oldest] = ex;
                     }
+                }
+
+                if (i < messages.Count)
+                {
+                    var m = messages[i];
+                    inFlight[i % inFlight.Length] = PublishCoreAsync(m.Topic, m.Payload, m.Retain, m.Qos, ct);
                 }
             }
         }

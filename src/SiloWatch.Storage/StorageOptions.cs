@@ -136,11 +136,12 @@ public sealed class DownsamplingOptions
     /// network) is still merged into its interval, which is then written again with the same
     /// timestamp. Older points are counted (health: LatePoints), logged and not written. Memory grows
     /// with it: each series keeps the window's intervals, allocated once (a sensor series at 1 s about
-    /// 72 bytes per second of window, an estimate series about 150). Default 30 s; 00:00:00 (only the
+    /// 72 bytes per second of window, an estimate series about 150). Default 10 s: reordering and short
+    /// gateway hiccups; a longer store-and-forward gap needs a longer window and its memory. 00:00:00 (only the
     /// interval being filled takes points) to 01:00:00, and at most <see cref="MaxLateMergeIntervals"/>
     /// intervals.
     /// </summary>
-    public TimeSpan LateMergeWindow { get; set; } = TimeSpan.FromSeconds(30);
+    public TimeSpan LateMergeWindow { get; set; } = TimeSpan.FromSeconds(10);
 
     /// <summary>Upper bound of <see cref="LateMergeWindow"/> in intervals (memory per series).</summary>
     public const int MaxLateMergeIntervals = 3600;

@@ -198,22 +198,22 @@ public sealed class DownsamplerTests
     public async Task APointMoreThanTheWindowBehindIsCountedLoggedWithTheWindowAndNotWritten()
     {
         var rules = new StorageOptions().Downsampling;
-        Assert.Equal(TimeSpan.FromSeconds(30), rules[Measurements.Sensor].LateMergeWindow);
+        Assert.Equal(TimeSpan.FromSeconds(10), rules[Measurements.Sensor].LateMergeWindow);
         var log = new TestLogger<Downsampler>();
         await using var sink = new Downsampler(_inner, rules, _time, log);
         var s = Sensor();
         sink.Write(s, 100_000, [1, 1, 0]);
         sink.Write(s, 101_000, [2, 2, 0]);
-        sink.Write(s, 131_000, [3, 3, 0]);  // seconds 100 and 101 written
+        sink.Write(s, 111_000, [3, 3, 0]);  // seconds 100 and 101 written
 
-        sink.Write(s, 100_900, [9, 9, 0]);  // 31 s behind second 131: outside the window
-        sink.Write(s, 101_100, [5, 6, 0]);  // 30 s behind: merged
+        sink.Write(s, 100_900, [9, 9, 0]);  // 11 s behind second 111: outside the window
+        sink.Write(s, 101_100, [5, 6, 0]);  // 10 s behind: merged
 
         Assert.Equal([100_000L, 101_000L, 101_000L], _inner.Points.Select(p => p.TimestampMs));
         Assert.Equal(1, _inner.Points[0].Fields["value"]);
         Assert.Equal(4, _inner.Points[2].Fields["value"], 12);
         Assert.Equal(1, sink.Health.LatePoints);
-        Assert.True(log.Logged(Microsoft.Extensions.Logging.LogLevel.Warning, "late-merge window (00:00:30)"), string.Join("; ", log.Entries));
+        Assert.True(log.Logged(Microsoft.Extensions.Logging.LogLevel.Warning, "late-merge window (00:00:10)"), string.Join("; ", log.Entries));
     }
 
     [Fact]

@@ -75,6 +75,19 @@ public sealed class PartitionWorker
 
     public void Add(SiloPipeline pipeline) => _pipelines.Add(pipeline);
 
+    /// <summary>
+    /// Delay of this worker's first checkpoint beyond the interval (set before it starts): workers fed
+    /// from the first second would otherwise checkpoint in step, each second's store flush, captures and
+    /// journal saves all at once.
+    /// </summary>
+    public TimeSpan CheckpointPhase
+    {
+        get => _phase;
+        set => _phase = value >= TimeSpan.Zero ? value : throw new ArgumentOutOfRangeException(nameof(value));
+    }
+
+    private TimeSpan _phase;
+
     /// <summary>Messages processed and waiting for their checkpoint.</summary>
     public int Uncheckpointed => Volatile.Read(ref _uncheckpointedCount);
 
@@ -202,7 +215,8 @@ public sealed class PartitionWorker
                 {
                     if (_uncheckpointed.Count == 0)
                     {
-                        _nextCheckpoint = _time.GetUtcNow() + _checkpoints.Interval;
+                        _nextCheckpoint = _time.GetUtcNow() + _checkpoints.Interval + _phase;
+                        _phase = TimeSpan.Zero;
                     }
 
                     _uncheckpointed.Add(ticket);

@@ -50,7 +50,10 @@ public sealed class TelemetryIngest
         var partitions = options.Partitions > 0 ? options.Partitions : Environment.ProcessorCount;
         partitions = Math.Max(1, Math.Min(partitions, Math.Max(1, shard.Owned.Count)));
         _workers = [.. Enumerable.Range(0, partitions).Select(i =>
-            new PartitionWorker(i, options.QueueCapacity, time, options.PublishInterval, options.MinEvaluationInterval, options.Id, logger, _checkpoints))];
+            new PartitionWorker(i, options.QueueCapacity, time, options.PublishInterval, options.MinEvaluationInterval, options.Id, logger, _checkpoints)
+            {
+                CheckpointPhase = options.CheckpointInterval * i / partitions,
+            })];
         _pipelinesByKey = new Dictionary<string, SiloPipeline>(StringComparer.Ordinal);
         _writerBySilo = new System.Threading.Channels.ChannelWriter<IngestMessage>[registry.Silos.Count];
         foreach (var silo in shard.Owned)
