@@ -247,6 +247,9 @@ public static class ScaleLoadDriver
 
         // After warm-up and the measured window, while the load still runs: a full collection, then the sizes.
         var (heapAfter, workingSetAfter) = Memory();
+        var gc = GC.GetGCMemoryInfo();
+        Console.WriteLine(string.Create(CultureInfo.InvariantCulture,
+            $"memory: managed heap {heapAfter / 1e6:F1} MB live, GC committed {gc.TotalCommittedBytes / 1e6:F1} MB; working set {workingSetAfter / 1e6:F1} MB ({ProcStatus("RssAnon")} anonymous, {ProcStatus("RssFile")} file-backed)"));
         await stop.CancelAsync();
         await gatewayTask;
         var snapshot = counters.Snapshot();
@@ -528,6 +531,12 @@ public static class ScaleLoadDriver
         Thread.Sleep(300); // subscribed before the service publishes its first states
         return observer;
     }
+
+    /// <summary>A line of /proc/self/status (Linux), e.g. "RssAnon" → "98304 kB"; "?" elsewhere.</summary>
+    private static string ProcStatus(string key) =>
+        File.Exists("/proc/self/status")
+            ? File.ReadLines("/proc/self/status").FirstOrDefault(l => l.StartsWith(key + ":", StringComparison.Ordinal))?[(key.Length + 1)..].Trim() ?? "?"
+            : "?";
 
     private static (long Heap, long WorkingSet) Memory()
     {
