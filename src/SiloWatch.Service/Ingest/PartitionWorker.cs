@@ -12,7 +12,8 @@ namespace SiloWatch.Service.Ingest;
 /// evaluation is less than the minimum evaluation interval ago, as soon as that interval has passed:
 /// its state follows its newest sample within the minimum interval, and a fast feed is evaluated no
 /// more often than that. A silo not evaluated for a publish interval (no new samples) is evaluated
-/// on the service clock then, because staleness, alarm delays and shelving expiry run on that clock.
+/// on the service clock then, because alarm delays, shelving expiry and the staleness of a silo with
+/// nothing queued (see SiloMonitor.ArrivalsSeenUntil) run on that clock.
 /// Evaluating at the samples' own time (<see cref="SiloPipeline.FollowsSampleTime"/>, replays) keeps
 /// the publish interval only.
 /// </para>
