@@ -30,14 +30,14 @@ public static class IngestLoadDriver
         var perMessage = args.Length > 1 ? int.Parse(args[1], CultureInfo.InvariantCulture) : 50;
         var rounds = args.Length > 2 ? int.Parse(args[2], CultureInfo.InvariantCulture) : 3;
         var warmups = args.Length > 3 ? int.Parse(args[3], CultureInfo.InvariantCulture) : 3;
-        var mosquitto = new[] { "/usr/sbin/mosquitto", "/usr/bin/mosquitto" }.FirstOrDefault(File.Exists)
-            ?? throw new InvalidOperationException("mosquitto is not installed (apt-get install mosquitto)");
+        ArgumentOutOfRangeException.ThrowIfNegative(warmups, "warmupRounds");
+        var mosquitto = LocalServers.Mosquitto();
         var folder = Directory.CreateTempSubdirectory("silowatch-load-").FullName;
         if (!OperatingSystem.IsWindows())
         {
             File.SetUnixFileMode(folder, (UnixFileMode)0x1FF);
         }
-        var port = FreePort();
+        var port = LocalServers.FreeLoopbackPort();
         var conf = Path.Combine(folder, "mosquitto.conf");
         await File.WriteAllTextAsync(conf, $"listener {port} 127.0.0.1\nallow_anonymous true\nset_tcp_nodelay true\nmax_queued_messages 0\nmax_inflight_messages 0\n");
         using var broker = Process.Start(new ProcessStartInfo(mosquitto, ["-c", conf]) { RedirectStandardError = true })!;
@@ -395,13 +395,6 @@ public static class IngestLoadDriver
         {
             Directory.Delete(folder, recursive: true);
         }
-    }
-
-    private static int FreePort()
-    {
-        using var listener = new TcpListener(IPAddress.Loopback, 0);
-        listener.Start();
-        return ((IPEndPoint)listener.LocalEndpoint).Port;
     }
 
     /// <summary>

@@ -444,23 +444,10 @@ public static class ScaleLoadDriver
         return (path, [.. silos]);
     }
 
-    /// <summary>The server binary named by the environment variable (as tests/run.sh exports it), else the first of <paramref name="paths"/> found.</summary>
-    private static string Installed(string variable, string[] paths, string missing) =>
-        Environment.GetEnvironmentVariable(variable) is { Length: > 0 } env
-            ? env
-            : paths.FirstOrDefault(File.Exists) ?? throw new InvalidOperationException(missing);
-
-    private static int FreeLoopbackPort()
-    {
-        using var listener = new TcpListener(IPAddress.Loopback, 0);
-        listener.Start();
-        return ((IPEndPoint)listener.LocalEndpoint).Port;
-    }
-
     private static Process StartMosquitto(string folder, out int port)
     {
-        var binary = Installed("SILOWATCH_TEST_MOSQUITTO_BIN", ["/usr/sbin/mosquitto", "/usr/bin/mosquitto"], "mosquitto is not installed (apt-get install mosquitto)");
-        port = FreeLoopbackPort();
+        var binary = LocalServers.Mosquitto();
+        port = LocalServers.FreeLoopbackPort();
 
         // The throughput settings of deploy/mosquitto/silowatch.conf, anonymous on loopback.
         var conf = Path.Combine(folder, "mosquitto.conf");
@@ -487,8 +474,8 @@ public static class ScaleLoadDriver
     /// <summary>VictoriaMetrics on a free loopback port with its data in <paramref name="folder"/> (the settings of tests/run.sh).</summary>
     private static Process StartVictoriaMetrics(string folder, out int port)
     {
-        var binary = Installed("SILOWATCH_TEST_VM_BIN", ["/usr/bin/victoria-metrics", "/usr/local/bin/victoria-metrics"], "victoria-metrics is not installed (apt-get install victoria-metrics), or use --store embedded");
-        port = FreeLoopbackPort();
+        var binary = LocalServers.Installed("SILOWATCH_TEST_VM_BIN", ["/usr/bin/victoria-metrics", "/usr/local/bin/victoria-metrics"], "victoria-metrics is not installed (apt-get install victoria-metrics), or use --store embedded");
+        port = LocalServers.FreeLoopbackPort();
 
         var process = Process.Start(new ProcessStartInfo(binary,
             [$"-httpListenAddr=127.0.0.1:{port}", $"-storageDataPath={Path.Combine(folder, "vm")}", "-dedup.minScrapeInterval=1ms", "-loggerLevel=ERROR"])
@@ -570,7 +557,7 @@ public static class ScaleLoadDriver
                     "--interval" => s with { Interval = TimeSpan.Parse(v, CultureInfo.InvariantCulture) },
                     "--baseline" => s with { Baseline = int.Parse(v, CultureInfo.InvariantCulture) },
                     "--min-evaluation" => s with { MinEvaluation = TimeSpan.Parse(v, CultureInfo.InvariantCulture) },
-                    "--store" when v is "server" or "embedded" => s with { Store = v },
+                    "--store" => v is "server" or "embedded" ? s with { Store = v } : throw new ArgumentException($"--store takes server or embedded, not '{v}'"),
                     _ => throw new ArgumentException($"unknown option {args[i]}"),
                 };
             }
