@@ -83,11 +83,11 @@ public sealed class PartitionWorker
     /// </summary>
     public TimeSpan CheckpointPhase
     {
-        get => _phase;
-        set => _phase = value >= TimeSpan.Zero ? value : throw new ArgumentOutOfRangeException(nameof(value));
+        get;
+        init => field = value >= TimeSpan.Zero ? value : throw new ArgumentOutOfRangeException(nameof(value));
     }
 
-    private TimeSpan _phase;
+    private bool _checkpointed; // a checkpoint has begun: the phase is behind
 
     /// <summary>Messages processed and waiting for their checkpoint.</summary>
     public int Uncheckpointed => Volatile.Read(ref _uncheckpointedCount);
@@ -216,8 +216,7 @@ public sealed class PartitionWorker
                 {
                     if (_uncheckpointed.Count == 0)
                     {
-                        _nextCheckpoint = _time.GetUtcNow() + _checkpoints.Interval + _phase;
-                        _phase = TimeSpan.Zero;
+                        _nextCheckpoint = _time.GetUtcNow() + _checkpoints.Interval + (_checkpointed ? TimeSpan.Zero : CheckpointPhase);
                     }
 
                     _uncheckpointed.Add(ticket);
@@ -409,6 +408,7 @@ public sealed class PartitionWorker
             return;
         }
 
+        _checkpointed = true;
         _pending = _checkpoints.Begin(_pipelines, _uncheckpointed, _time.GetUtcNow().ToUnixTimeMilliseconds(), stoppingToken);
         _nextCheckpoint = DateTimeOffset.MaxValue;
         _lastCheckpoint = _time.GetUtcNow();
