@@ -322,10 +322,11 @@ public sealed partial class SupervisedMqttClient : IAsyncDisposable
 
     /// <summary>
     /// Most QoS 1 messages <see cref="PublishManyAsync"/> keeps in flight (fewer when the broker's
-    /// Receive Maximum says so). The rate is at most the window per round trip, and a busy broker's
-    /// round trip grows to hundreds of milliseconds: 64 capped a 400-silo plant's states there.
+    /// Receive Maximum says so). The rate is at most the window per round trip. A window of 256 was
+    /// tried and taken back: with it, the broker-ACL test's refused dead letters were counted but the
+    /// refusal's log line was missing in 2 of 6 full runs (not understood yet; see the note).
     /// </summary>
-    public const int DefaultWindow = 256;
+    public const int DefaultWindow = 64;
 
     private uint SessionExpirySeconds => (uint)Math.Clamp(_options.SessionExpiry.TotalSeconds, 1, uint.MaxValue - 1);
 
