@@ -181,7 +181,7 @@ public sealed class PartitionWorkerTests : IAsyncDisposable
         Assert.Equal(0, Worker.Depth);
 
         // The last checkpoint covers what was processed: the publisher's position is the last message processed.
-        var checkpoint = Assert.IsType<IngestCheckpoint>(pipeline.LastCheckpoint);
+        var checkpoint = Assert.IsType<CheckpointMark>(pipeline.LastCheckpoint);
         Assert.Equal(1 + Queued - Worker.LeftQueued, Assert.Single(checkpoint.Sequences).Highest);
     }
 
@@ -219,7 +219,7 @@ public sealed class PartitionWorkerTests : IAsyncDisposable
         sink.Complete(null);
         await saving.Done;
         Assert.True(checkpoints.Finish(saving));
-        Assert.Equal(2, Assert.IsType<IngestCheckpoint>(pipeline.LastCheckpoint).TakenMs);
+        Assert.Equal(2, Assert.IsType<CheckpointMark>(pipeline.LastCheckpoint).TakenMs);
         Assert.Contains("\"TakenMs\":2", journal.LoadSnapshot(pipeline.Silo.Key, IngestCheckpoints.Kind), StringComparison.Ordinal);
         Assert.Equal(1, checkpoints.Saved);
     }

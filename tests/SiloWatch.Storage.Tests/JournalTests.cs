@@ -114,16 +114,22 @@ public sealed class JournalTests : IDisposable
         using (var journal = Open())
         {
             journal.SaveSnapshot("brackenford/S1", "ingest-checkpoint", "{\"v\":0}");
-            journal.SaveSnapshots([("brackenford/S1", "ingest-checkpoint", "{\"v\":1}"), ("brackenford/S2", "ingest-checkpoint", "{\"v\":2}")]);
+            journal.SaveSnapshots([("brackenford/S1", "ingest-checkpoint", "{\"v\":1}"u8.ToArray()), ("brackenford/S2", "ingest-checkpoint", "{\"v\":\"2 \u00b5m\"}"u8.ToArray())]);
 
             // One bad entry: nothing of the batch is written, the earlier snapshots stay.
-            Assert.Throws<ArgumentException>(() => journal.SaveSnapshots([("brackenford/S1", "ingest-checkpoint", "{\"v\":9}"), ("", "ingest-checkpoint", "{}")]));
+            Assert.Throws<ArgumentException>(() => journal.SaveSnapshots([("brackenford/S1", "ingest-checkpoint", "{\"v\":9}"u8.ToArray()), ("", "ingest-checkpoint", "{}"u8.ToArray())]));
         }
 
-        using var reopened = Open();
-        Assert.Equal("{\"v\":1}", reopened.LoadSnapshot("brackenford/S1", "ingest-checkpoint"));
-        Assert.Equal("{\"v\":2}", reopened.LoadSnapshot("brackenford/S2", "ingest-checkpoint"));
-        Assert.Equal(2, reopened.LoadSnapshots("ingest-checkpoint").Count);
+        using (var reopened = Open())
+        {
+            Assert.Equal("{\"v\":1}", reopened.LoadSnapshot("brackenford/S1", "ingest-checkpoint"));
+            Assert.Equal("{\"v\":\"2 \u00b5m\"}", reopened.LoadSnapshot("brackenford/S2", "ingest-checkpoint")); // UTF-8 beyond ASCII read back as written
+            Assert.Equal(2, reopened.LoadSnapshots("ingest-checkpoint").Count);
+        }
+
+        // Saved from UTF-8 bytes, stored as text like every other snapshot (not as a blob).
+        using var c = Raw(DbPath);
+        Assert.Equal("text", Scalar(c, "SELECT group_concat(DISTINCT typeof(json)) FROM snapshots"));
     }
 
     [Fact]

@@ -1,5 +1,6 @@
 using System.Text.Json;
 using System.Text.Json.Serialization;
+using SiloWatch.Messaging;
 using SiloWatch.Storage;
 
 namespace SiloWatch.Service.Ingest;
@@ -47,11 +48,14 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
         ArgumentNullException.ThrowIfNull(pipelines);
         ArgumentNullException.ThrowIfNull(tickets);
         var captured = new List<(SiloPipeline Pipeline, IngestCheckpoint Checkpoint)>();
+        var marks = new List<(SiloPipeline Pipeline, CheckpointMark Mark)>();
         foreach (var pipeline in pipelines)
         {
             if (pipeline.NeedsCheckpoint)
             {
-                captured.Add((pipeline, pipeline.CaptureCheckpoint(nowMs)));
+                var checkpoint = pipeline.CaptureCheckpoint(nowMs);
+                captured.Add((pipeline, checkpoint));
+                marks.Add((pipeline, CheckpointMark.Of(checkpoint)));
             }
         }
 
@@ -59,10 +63,13 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
         tickets.Clear();
 
         // The store flush starts now, so it covers what was written before the capture. A capture is a copy
-        // (the worker goes on changing the silo), so writing it out is not the worker's job.
+        // (the worker goes on changing the silo), so writing it out is not the worker's job. Only the serialiser
+        // holds the captures: once written out they are garbage while still young, where collecting them is
+        // cheap. Held until the store flush and the save (a second or more), they would reach the oldest generation
+        // and die there, 400 silos' worth per second, which kept the heap twice the size of what it holds.
         var flushing = sink.FlushStoredAsync(ct);
         var writing = Task.Run(() => Serialize(captured), CancellationToken.None);
-        return new PendingCheckpoint(captured, taken, StoreAsync(flushing, writing));
+        return new PendingCheckpoint(marks, taken, StoreAsync(flushing, writing));
     }
 
     /// <summary>
@@ -89,9 +96,9 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
             return false;
         }
 
-        foreach (var (pipeline, checkpoint) in pending.Captured)
+        foreach (var (pipeline, mark) in pending.Captured)
         {
-            pipeline.LastCheckpoint = checkpoint;
+            pipeline.LastCheckpoint = mark;
         }
 
         Interlocked.Add(ref _saved, pending.Captured.Count);
@@ -99,18 +106,20 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
         return true;
     }
 
-    private static List<(string SiloKey, string Kind, string Json)> Serialize(List<(SiloPipeline Pipeline, IngestCheckpoint Checkpoint)> captured)
+    private static List<(string SiloKey, string Kind, byte[] Utf8Json)> Serialize(List<(SiloPipeline Pipeline, IngestCheckpoint Checkpoint)> captured)
     {
-        var saves = new List<(string SiloKey, string Kind, string Json)>(captured.Count);
+        var saves = new List<(string SiloKey, string Kind, byte[] Utf8Json)>(captured.Count);
         foreach (var (pipeline, checkpoint) in captured)
         {
-            saves.Add((pipeline.Silo.Key, Kind, JsonSerializer.Serialize(checkpoint, Json)));
+            saves.Add((pipeline.Silo.Key, Kind, JsonSerializer.SerializeToUtf8Bytes(checkpoint, Json)));
         }
+
+        captured.Clear(); // the task holding this list lives until the save: the captures should not
 
         return saves;
     }
 
-    private async Task StoreAsync(Task flushing, Task<List<(string SiloKey, string Kind, string Json)>> writing)
+    private async Task StoreAsync(Task flushing, Task<List<(string SiloKey, string Kind, byte[] Utf8Json)>> writing)
     {
         await flushing.ConfigureAwait(false);
         var saves = await writing.ConfigureAwait(false);
@@ -151,18 +160,29 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
 /// <summary>A checkpoint begun by <see cref="IngestCheckpoints.Begin"/>: its store flush and journal save in <see cref="Done"/>.</summary>
 public sealed class PendingCheckpoint
 {
-    internal PendingCheckpoint(List<(SiloPipeline Pipeline, IngestCheckpoint Checkpoint)> captured, List<AckTicket> tickets, Task done)
+    internal PendingCheckpoint(List<(SiloPipeline Pipeline, CheckpointMark Mark)> captured, List<AckTicket> tickets, Task done)
     {
         Captured = captured;
         Tickets = tickets;
         Done = done;
     }
 
-    internal List<(SiloPipeline Pipeline, IngestCheckpoint Checkpoint)> Captured { get; }
+    /// <summary>The silos captured, each with what is kept of its checkpoint once saved.</summary>
+    internal List<(SiloPipeline Pipeline, CheckpointMark Mark)> Captured { get; }
 
     /// <summary>The messages this checkpoint covers, acknowledged once it is saved.</summary>
     public List<AckTicket> Tickets { get; }
 
     /// <summary>The store flushed and the captures saved in the journal; faulted or cancelled when not.</summary>
     public Task Done { get; }
+}
+
+/// <summary>What a silo keeps of its last saved checkpoint (the capture itself is in the journal): when it was taken and the publishers' positions.</summary>
+public sealed record CheckpointMark(long TakenMs, IReadOnlyList<PublisherPosition> Sequences)
+{
+    public static CheckpointMark Of(IngestCheckpoint checkpoint)
+    {
+        ArgumentNullException.ThrowIfNull(checkpoint);
+        return new(checkpoint.TakenMs, checkpoint.Sequences);
+    }
 }

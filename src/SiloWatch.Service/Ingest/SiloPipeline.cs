@@ -188,8 +188,8 @@ public sealed class SiloPipeline : ITelemetryReceiver
         return estimate;
     }
 
-    /// <summary>The last checkpoint saved (or restored) for this silo; null before the first.</summary>
-    public IngestCheckpoint? LastCheckpoint { get; internal set; }
+    /// <summary>When the last checkpoint saved (or restored) for this silo was taken and what it covers; null before the first.</summary>
+    public CheckpointMark? LastCheckpoint { get; internal set; }
 
     /// <summary>True when a message was processed since the last checkpoint.</summary>
     public bool NeedsCheckpoint { get; private set; }
@@ -225,7 +225,7 @@ public sealed class SiloPipeline : ITelemetryReceiver
     {
         ArgumentNullException.ThrowIfNull(checkpoint);
         var problems = new List<string>();
-        LastCheckpoint = checkpoint;
+        LastCheckpoint = CheckpointMark.Of(checkpoint);
         _decoder.RestoreSequences(checkpoint.Sequences);
         foreach (var (sensorId, interval) in checkpoint.Intervals)
         {
