@@ -7,6 +7,9 @@ namespace SiloWatch.Storage;
 /// </summary>
 public sealed class SeriesKey
 {
+    // Field sets are few (one per measurement and downsampling rule) and series many (tens per silo): the
+    // field names and their escaped keys are held once per set, not once per series.
+    private static readonly System.Collections.Concurrent.ConcurrentDictionary<string, (string[] Names, string[] EscapedKeys)> s_fieldSets = new(StringComparer.Ordinal);
     private static int s_nextId;
 
     /// <exception cref="ArgumentException">A name or tag value is empty, reserved, duplicated or holds a character line protocol cannot carry.</exception>
@@ -51,9 +54,12 @@ public sealed class SeriesKey
             throw new ArgumentException($"field names of '{measurement}' must be unique", nameof(fieldNames));
         }
 
+        var fieldSet = s_fieldSets.GetOrAdd(string.Join('\n', fields), static (_, f) =>
+            ([.. f.Select(string.Intern)], [.. f.Select(n => string.Intern(LineProtocol.Escape(n, LineProtocol.KeySpecials) + "="))]), fields);
         Measurement = measurement;
         Tags = sortedTags;
-        FieldNames = fields;
+        FieldNames = fieldSet.Names;
+        EscapedFieldKeys = fieldSet.EscapedKeys;
         Id = Interlocked.Increment(ref s_nextId);
 
         var prefix = new System.Text.StringBuilder();
@@ -68,10 +74,6 @@ public sealed class SeriesKey
 
         prefix.Append(' ');
         LinePrefix = prefix.ToString();
-        EscapedTagSet = sortedTags.Length == 0
-            ? ""
-            : LinePrefix[(LineProtocol.EscapedLength(measurement, LineProtocol.MeasurementSpecials) + 1)..^1];
-        EscapedFieldKeys = [.. fields.Select(f => LineProtocol.Escape(f, LineProtocol.KeySpecials) + "=")];
     }
 
     public SeriesKey(string measurement, IEnumerable<KeyValuePair<string, string>> tags, params string[] fieldNames)
@@ -89,8 +91,10 @@ public sealed class SeriesKey
     /// <summary>"measurement,k1=v1,k2=v2 " escaped for line protocol, with the trailing space.</summary>
     public string LinePrefix { get; }
 
-    /// <summary>"k1=v1,k2=v2" escaped, "" without tags: the canonical tag set.</summary>
-    public string EscapedTagSet { get; }
+    /// <summary>"k1=v1,k2=v2" escaped, "" without tags: the canonical tag set (cut from <see cref="LinePrefix"/> when asked; it is asked once per series).</summary>
+    public string EscapedTagSet => Tags.Count == 0
+        ? ""
+        : LinePrefix[(LineProtocol.EscapedLength(Measurement, LineProtocol.MeasurementSpecials) + 1)..^1];
 
     /// <summary>Process-unique number of this key (for caches).</summary>
     internal int Id { get; }
