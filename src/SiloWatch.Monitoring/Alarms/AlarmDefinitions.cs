@@ -49,6 +49,10 @@ public static class AlarmDefinitions
 
     public const string PlaceholderNote = "These limits are placeholders, not yet approved by a structural engineer.";
 
+    // A text is the same for every silo with the same limits, rings and sensor names: held once, not once per silo
+    // (hundreds of silos, a few kB of texts each).
+    private static string Shared(string text) => string.Intern(text);
+
     public static IReadOnlyList<AlarmDefinition> ForSilo(SiloRef silo, SiloModel model, AlarmDefinitionOptions? options = null)
     {
         ArgumentNullException.ThrowIfNull(silo);
@@ -73,33 +77,33 @@ public static class AlarmDefinitions
             var what = ring.First().Kind == SensorKind.AxialStrain ? "axial" : "hoop";
             list.Add(new AlarmDefinition($"{site}/{id}/asymmetry-a1-{ring.Key}", site, id, ConditionKeys.AsymmetryA1(id, ring.Key), "ratio", AlarmDirection.High,
                 limits.AsymmetryRatioA1, o.RatioDeadband, 2, o.WallOnDelay, o.WallOffDelay, o.LatchWallAlarms, discharging,
-                $"Silo {id}: uneven {what} wall load at ring {ring.Key} during discharge (first harmonic over mean above {limits.AsymmetryRatioA1:0.##}); a flow channel or eccentric flow is likely. {WallLoadAction} {note}"));
+                Shared($"uneven {what} wall load at ring {ring.Key} during discharge (first harmonic over mean above {limits.AsymmetryRatioA1:0.##}); a flow channel or eccentric flow is likely. {WallLoadAction} {note}")));
             if (o.AsymmetryRatioA2 is { } a2)
             {
                 list.Add(new AlarmDefinition($"{site}/{id}/asymmetry-a2-{ring.Key}", site, id, ConditionKeys.AsymmetryA2(id, ring.Key), "ratio", AlarmDirection.High,
                     a2, o.RatioDeadband, 2, o.WallOnDelay, o.WallOffDelay, o.LatchWallAlarms, discharging,
-                    $"Silo {id}: ovalising {what} wall load at ring {ring.Key} during discharge (second harmonic over mean above {a2:0.##}). {WallLoadAction} {note}"));
+                    Shared($"ovalising {what} wall load at ring {ring.Key} during discharge (second harmonic over mean above {a2:0.##}). {WallLoadAction} {note}")));
             }
 
             list.Add(new AlarmDefinition($"{site}/{id}/excess-{ring.Key}", site, id, ConditionKeys.Excess(id, ring.Key), "ratio", AlarmDirection.High,
                 limits.ExcessLoadRatio, o.RatioDeadband, 1, o.WallOnDelay, o.WallOffDelay, o.LatchWallAlarms, discharging,
-                $"Silo {id}: {what} wall load at ring {ring.Key} above {limits.ExcessLoadRatio:0.##} times the expected discharge load. {WallLoadAction} {note}"));
+                Shared($"{what} wall load at ring {ring.Key} above {limits.ExcessLoadRatio:0.##} times the expected discharge load. {WallLoadAction} {note}")));
         }
 
         list.Add(new AlarmDefinition($"{site}/{id}/overfill", site, id, ConditionKeys.Overfill(id), "%", AlarmDirection.High,
             limits.OverfillPercent, 1.0, 1, o.OverfillOnDelay, TimeSpan.FromSeconds(30), false, null,
-            $"Silo {id}: contents above {limits.OverfillPercent:0.#} % of capacity. Stop filling; check the level and the vent before filling again. {note}"));
+            Shared($"contents above {limits.OverfillPercent:0.#} % of capacity. Stop filling; check the level and the vent before filling again. {note}")));
 
         if (silo.Options.Weighing.SupportCapacityKn > 0 && silo.Options.Weighing.SupportCount > 0)
         {
             list.Add(new AlarmDefinition($"{site}/{id}/support-overload", site, id, ConditionKeys.SupportOverload(id), "%", AlarmDirection.High,
                 limits.SupportOverloadPercent, 2.0, 1, o.SupportOnDelay, TimeSpan.FromSeconds(30), false, null,
-                $"Silo {id}: a support carries more than {limits.SupportOverloadPercent:0.#} % of its rated capacity. Stop filling, keep people clear of the supports and tell the structural engineer. {note}"));
+                Shared($"a support carries more than {limits.SupportOverloadPercent:0.#} % of its rated capacity. Stop filling, keep people clear of the supports and tell the structural engineer. {note}")));
         }
 
         list.Add(new AlarmDefinition($"{site}/{id}/idle-mass-change", site, id, ConditionKeys.IdleMassChange(id), "kg/min", AlarmDirection.High,
             limits.IdleMassChangeKgPerMin, 0.2 * limits.IdleMassChangeKgPerMin, 3, o.IdleChangeOnDelay, TimeSpan.FromSeconds(60), false, idle,
-            $"Silo {id}: mass changing faster than {limits.IdleMassChangeKgPerMin:0} kg/min while no fill or discharge is running: a leak, a hang-up letting go, or a sensor fault. Check the outlet and the sensors from outside; never enter the silo to clear a hang-up. {note}"));
+            Shared($"mass changing faster than {limits.IdleMassChangeKgPerMin:0} kg/min while no fill or discharge is running: a leak, a hang-up letting go, or a sensor fault. Check the outlet and the sensors from outside; never enter the silo to clear a hang-up. {note}")));
 
         foreach (var s in silo.Options.Sensors)
         {
@@ -113,7 +117,7 @@ public static class AlarmDefinitions
             };
             list.Add(new AlarmDefinition($"{site}/{id}/sensor-bad-{s.Id}", site, id, ConditionKeys.SensorBad(id, s.Id), "bad", AlarmDirection.High,
                 0.5, 0.0, s.Kind == SensorKind.Temperature ? 4 : 3, o.SensorBadDelay, TimeSpan.FromSeconds(10), false, null,
-                $"Silo {id}: {kind} {s.Id} has given bad data for more than {o.SensorBadDelay.TotalSeconds:0} s; the numbers that use it are degraded or unavailable. Send maintenance to check it."));
+                Shared($"{kind} {s.Id} has given bad data for more than {o.SensorBadDelay.TotalSeconds:0} s; the numbers that use it are degraded or unavailable. Send maintenance to check it.")));
         }
 
         return list;

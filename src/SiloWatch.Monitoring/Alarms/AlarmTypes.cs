@@ -55,7 +55,7 @@ public enum AlarmDirection
 /// <param name="OffDelay">The condition must be clear this long before the alarm returns to normal.</param>
 /// <param name="Latching">Stays (latched) after the condition clears until an operator resets it.</param>
 /// <param name="EnabledIn">Discharge states in which it is evaluated; outside them it is suppressed by design. Null: always.</param>
-/// <param name="Message">What the operator reads, with the caution.</param>
+/// <param name="Text">What the operator reads after the silo's name, with the caution (see <see cref="Message"/>).</param>
 public sealed record AlarmDefinition(
     string Id,
     string SiteId,
@@ -70,7 +70,11 @@ public sealed record AlarmDefinition(
     TimeSpan OffDelay,
     bool Latching,
     IReadOnlyList<DischargeState>? EnabledIn,
-    string Message);
+    string Text)
+{
+    /// <summary>What the operator reads: "Silo {SiloId}: {Text}".</summary>
+    public string Message => $"Silo {SiloId}: {Text}";
+}
 
 /// <summary>The value of one condition at one moment, with the silo's discharge state (for suppression by design).</summary>
 /// <param name="Value">NaN when unknown (bad sensors, ring not resolved): the alarm holds its state and timers.</param>
