@@ -1,4 +1,3 @@
-using System.Collections.Concurrent;
 using System.Net.Http.Json;
 using System.Text.Json;
 using MQTTnet;
@@ -119,7 +118,7 @@ public sealed class BrokerAclTests(ITestOutputHelper output)
 
         await using var _ = broker;
         using var dump = new LogOnFailure(() => output.WriteLine(broker.Log));
-        var logs = new CollectingSink();
+        var logs = new CollectingLogSink();
         await using var tool = await TestMqtt.ConnectAsync(broker.Port, "acl-op3", (AclBroker.OperatorUser, passwords[AclBroker.OperatorUser]),
             $"{Prefix}/state/{Site}/S1", $"{Prefix}/deadletter/#");
         await using var service = await StartServiceAsync(broker.Port, "acl-deny", passwords, logs);
@@ -171,7 +170,7 @@ public sealed class BrokerAclTests(ITestOutputHelper output)
         Assert.DoesNotContain("Bad socket read/write on client silowatch-acl-deny", broker.Log, StringComparison.Ordinal);
     }
 
-    private static async Task<ServiceUnderTest> StartServiceAsync(int port, string instance, IReadOnlyDictionary<string, string> passwords, CollectingSink? logs)
+    private static async Task<ServiceUnderTest> StartServiceAsync(int port, string instance, IReadOnlyDictionary<string, string> passwords, CollectingLogSink? logs)
     {
         // The password comes from a file, as in deploy/ (never on the command line or in settings).
         var passwordFile = Path.Combine(Path.GetTempPath(), $"silowatch-it-{Environment.ProcessId}-{instance}.pw");
@@ -214,15 +213,5 @@ public sealed class BrokerAclTests(ITestOutputHelper output)
     private sealed class LogOnFailure(Action write) : IDisposable
     {
         public void Dispose() => write();
-    }
-
-    /// <summary>Collects the service's Serilog events (registered in its container: Serilog reads sinks from there).</summary>
-    private sealed class CollectingSink : ILogEventSink
-    {
-        private readonly ConcurrentQueue<LogEvent> _events = new();
-
-        public IReadOnlyCollection<LogEvent> Events => _events;
-
-        public void Emit(LogEvent logEvent) => _events.Enqueue(logEvent);
     }
 }

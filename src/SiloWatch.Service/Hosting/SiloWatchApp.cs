@@ -29,10 +29,15 @@ public static class SiloWatchApp
         builder.Configuration.AddCommandLine(args);
         configure?.Invoke(builder);
 
-        builder.Services.AddSerilog((sp, cfg) => cfg
-            .ReadFrom.Configuration(builder.Configuration)
-            .ReadFrom.Services(sp)
-            .Enrich.FromLogContext());
+        // The host's own logger, not the static one: with the static one, the last host built in a process took
+        // every host's events and a host stopping (which closes the static logger) silenced the others.
+        // Program.cs keeps the static bootstrap logger for what happens before and after the host.
+        builder.Services.AddSerilog(
+            (sp, cfg) => cfg
+                .ReadFrom.Configuration(builder.Configuration)
+                .ReadFrom.Services(sp)
+                .Enrich.FromLogContext(),
+            preserveStaticLogger: true);
 
         builder.WebHost.UseUrls(builder.Configuration["Health:Urls"] ?? "http://127.0.0.1:8077");
         builder.Services.Configure<HostOptions>(o => o.ShutdownTimeout = TimeSpan.FromSeconds(20));

@@ -20,7 +20,7 @@ public sealed class FakeClockHost : IAsyncDisposable
     /// <summary>Where the clock starts: 2026-12-01T10:00Z.</summary>
     public static readonly DateTimeOffset Start = new(2026, 12, 1, 10, 0, 0, TimeSpan.Zero);
 
-    public FakeClockHost(string instanceId)
+    public FakeClockHost(string instanceId, Action<WebApplicationBuilder>? configure = null)
     {
         Time = new FakeTimeProvider(Start);
         var settings = new Dictionary<string, string>(StringComparer.Ordinal)
@@ -38,7 +38,11 @@ public sealed class FakeClockHost : IAsyncDisposable
             ["Health:Urls"] = "http://127.0.0.1:0",
             ["Serilog:MinimumLevel:Default"] = "Warning",
         };
-        App = SiloWatchApp.Build([.. settings.Select(s => $"--{s.Key}={s.Value}")], b => b.Services.AddSingleton<TimeProvider>(Time));
+        App = SiloWatchApp.Build([.. settings.Select(s => $"--{s.Key}={s.Value}")], b =>
+        {
+            b.Services.AddSingleton<TimeProvider>(Time);
+            configure?.Invoke(b);
+        });
     }
 
     public FakeTimeProvider Time { get; }
