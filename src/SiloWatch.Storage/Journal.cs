@@ -308,11 +308,11 @@ public sealed partial class Journal : IDisposable
         }
     }
 
-    private const string SnapshotUpsert =
-        "INSERT INTO snapshots(silo_key, kind, json, updated_ms) VALUES($key, $kind, $json, $ts) ON CONFLICT(silo_key, kind) DO UPDATE SET json = excluded.json, updated_ms = excluded.updated_ms";
+    private const string SnapshotReplace = " ON CONFLICT(silo_key, kind) DO UPDATE SET json = excluded.json, updated_ms = excluded.updated_ms";
 
-    private const string SnapshotUpsertUtf8 =
-        "INSERT INTO snapshots(silo_key, kind, json, updated_ms) VALUES($key, $kind, CAST($json AS TEXT), $ts) ON CONFLICT(silo_key, kind) DO UPDATE SET json = excluded.json, updated_ms = excluded.updated_ms";
+    private const string SnapshotUpsert = "INSERT INTO snapshots(silo_key, kind, json, updated_ms) VALUES($key, $kind, $json, $ts)" + SnapshotReplace;
+
+    private const string SnapshotUpsertUtf8 = "INSERT INTO snapshots(silo_key, kind, json, updated_ms) VALUES($key, $kind, CAST($json AS TEXT), $ts)" + SnapshotReplace;
 
     private const string EventColumns =
         "site, silo, started_ms, ended_ms, mass_at_start_kg, mass_out_kg, mean_rate_kg_s, peak_rate_kg_s, max_asymmetry_ratio, asymmetry_direction_deg, details_json, max_a2_ratio, max_peak_over_mean, max_measured_over_expected, highest_priority, alarms_raised";

@@ -114,7 +114,7 @@ public sealed class IngestCheckpoints(Journal journal, ITimeSeriesSink sink, Ack
             saves.Add((pipeline.Silo.Key, Kind, JsonSerializer.SerializeToUtf8Bytes(checkpoint, Json)));
         }
 
-        captured.Clear(); // the task holding this list lives until the save: the captures should not
+        captured.Clear(); // the task holding this list lives until the save; the captures need not
 
         return saves;
     }
